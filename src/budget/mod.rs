@@ -1,0 +1,104 @@
+//! Reading a budget file: YAML text → raw schema (shape only) → validated
+//! [`Budget`](crate::model::Budget). Every problem is reported with the
+//! file, line, field, what is wrong and what would be right.
+
+mod error;
+mod locate;
+mod raw;
+mod validate;
+
+pub use error::{Diagnostic, LoadError};
+pub use locate::{Position, SourceMap};
+
+use crate::model::Budget;
+use std::path::Path;
+
+/// Read and validate the budget file at `path`.
+pub fn load_budget(path: &Path) -> Result<Budget, LoadError> {
+    let text = std::fs::read_to_string(path).map_err(|source| LoadError::Read {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    parse_budget(&text, &path.display().to_string())
+}
+
+/// Validate budget-file `text`; `file` names it in messages.
+pub fn parse_budget(text: &str, file: &str) -> Result<Budget, LoadError> {
+    let map = SourceMap::build(text);
+    let raw: raw::RawBudget = serde_yaml::from_str(text)
+        .map_err(|e| LoadError::Invalid(vec![yaml_diagnostic(&e, file, &map)]))?;
+    validate::validate(raw, file, &map).map_err(LoadError::Invalid)
+}
+
+/// Turn a serde_yaml error into a diagnostic with a suggested fix.
+fn yaml_diagnostic(error: &serde_yaml::Error, file: &str, map: &SourceMap) -> Diagnostic {
+    let full = error.to_string();
+    // serde_yaml writes "path: message at line L column C".
+    let without_position = match full.rfind(" at line ") {
+        Some(at) => &full[..at],
+        None => full.as_str(),
+    };
+    let (field, message) = match without_position.split_once(": ") {
+        Some((path, message)) if !path.contains(' ') && !path.contains('`') => {
+            (Some(path.to_string()), message.to_string())
+        }
+        _ => (None, without_position.to_string()),
+    };
+    let position = error
+        .location()
+        .map(|l| Position {
+            line: l.line(),
+            column: l.column(),
+        })
+        .or_else(|| field.as_deref().and_then(|f| map.locate(f)));
+    let fix = suggest_fix(&message);
+    Diagnostic {
+        file: file.to_string(),
+        position,
+        field,
+        problem: message,
+        fix,
+    }
+}
+
+/// The words between backticks in `text`.
+fn quoted(text: &str) -> Vec<&str> {
+    text.split('`').skip(1).step_by(2).collect()
+}
+
+fn suggest_fix(message: &str) -> Option<String> {
+    if message.starts_with("unknown field") || message.starts_with("unknown variant") {
+        let words = quoted(message);
+        let (unknown, expected) = words.split_first()?;
+        let what = if message.starts_with("unknown field") { "field" } else { "stage kind" };
+        if expected.is_empty() {
+            return Some(format!("remove `{unknown}`: this map takes no such {what}"));
+        }
+        return Some(match error::closest(unknown, expected) {
+            Some(best) => format!("did you mean `{best}`? (valid: {})", expected.join(", ")),
+            None => format!("use one of: {}", expected.join(", ")),
+        });
+    }
+    if let Some(rest) = message.strip_prefix("missing field ") {
+        let name = rest.trim_matches('`');
+        return Some(format!("add `{name}: …` here"));
+    }
+    if message.contains("invalid type") {
+        return Some("check the indentation and the kind of value: a map (`key: value` lines), a list (`- item` lines) or a single value".into());
+    }
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fixes_for_unknown_names() {
+        let fix = suggest_fix("unknown field `r5`, expected one of `label`, `r1`, `r2`, `r3`, `r4`").unwrap();
+        assert!(fix.starts_with("did you mean `r1`?"), "{fix}");
+        let fix = suggest_fix("unknown variant `diff_amp`, expected `source` or `difference_amp`").unwrap();
+        assert!(fix.contains("`difference_amp`"), "{fix}");
+        assert_eq!(suggest_fix("missing field `r4`").unwrap(), "add `r4: …` here");
+    }
+}

@@ -1,0 +1,249 @@
+//! The budget file's raw schema: serde types that check only the shape of
+//! the YAML (which fields exist, which are maps or lists). Values stay text
+//! until the validator parses them against their field's dimension.
+
+use serde::de::{self, Deserializer, MapAccess, Visitor};
+use serde::Deserialize;
+use std::fmt;
+
+/// The whole budget file.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawBudget {
+    pub name: String,
+    #[serde(default)]
+    pub notes: Option<String>,
+    #[serde(default)]
+    pub patient_connected: Option<bool>,
+    #[serde(default)]
+    pub mains_referenced: Option<bool>,
+    pub chain: Vec<RawStage>,
+    #[serde(default)]
+    pub interference: Vec<RawInterference>,
+    #[serde(default)]
+    pub requirement: Option<RawRequirement>,
+    #[serde(default)]
+    pub extra_frequencies: Vec<Scalar>,
+}
+
+/// One stage, written as a map with a single key naming its kind.
+#[derive(Debug, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RawStage {
+    Source(Box<RawSource>),
+    DifferenceAmp(Box<RawDifferenceAmp>),
+}
+
+/// The source network.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawSource {
+    #[serde(default)]
+    pub label: Option<String>,
+    #[serde(default)]
+    pub resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub bridge_arm: Option<Scalar>,
+    #[serde(default)]
+    pub cable: Option<RawCable>,
+    #[serde(default)]
+    pub series_resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub filter_capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub differential_capacitance: Option<Scalar>,
+    #[serde(default)]
+    pub input_resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub input_capacitance: Option<PerLeg>,
+}
+
+/// The cable between the sensor and the board.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawCable {
+    pub capacitance: PerLeg,
+    pub length: Scalar,
+    #[serde(default)]
+    pub guard_drive: Option<Scalar>,
+}
+
+/// The four-resistor difference amplifier.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawDifferenceAmp {
+    #[serde(default)]
+    pub label: Option<String>,
+    pub r1: Scalar,
+    pub r2: Scalar,
+    pub r3: Scalar,
+    pub r4: Scalar,
+    #[serde(default)]
+    pub reference_resistance: Option<Scalar>,
+    #[serde(default)]
+    pub opamp: Option<RawOpAmp>,
+}
+
+/// An op-amp's data.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawOpAmp {
+    #[serde(default)]
+    pub open_loop_gain: Option<Scalar>,
+    #[serde(default)]
+    pub gain_bandwidth: Option<Scalar>,
+    #[serde(default)]
+    pub cmrr: Option<Scalar>,
+    #[serde(default)]
+    pub cmrr_corner: Option<Scalar>,
+}
+
+/// A common-mode interference source.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawInterference {
+    pub name: String,
+    pub amplitude: Scalar,
+    pub frequency: Scalar,
+    #[serde(default)]
+    pub max_error: Option<Scalar>,
+}
+
+/// What the design must achieve.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawRequirement {
+    #[serde(default)]
+    pub judged_on: Option<RawJudgement>,
+    #[serde(default)]
+    pub full_scale: Option<Scalar>,
+    #[serde(default)]
+    pub max_error: Option<Scalar>,
+    #[serde(default)]
+    pub min_cmrr: Vec<RawMinimumCmrr>,
+}
+
+/// Which total a requirement is judged on.
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RawJudgement {
+    WorstCase,
+    Rss,
+    Nominal,
+}
+
+/// A minimum CMRR at one frequency.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawMinimumCmrr {
+    pub at: Scalar,
+    pub cmrr: Scalar,
+}
+
+/// A value as written: text, or a YAML number turned into text.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scalar(pub String);
+
+impl<'de> Deserialize<'de> for Scalar {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        deserializer.deserialize_any(ScalarVisitor)
+    }
+}
+
+struct ScalarVisitor;
+
+const SCALAR_EXPECTED: &str = "a value such as `10k ±0.1 %`, `4.7 nF`, `50 Hz` or `1 V rms`";
+
+impl<'de> Visitor<'de> for ScalarVisitor {
+    type Value = Scalar;
+
+    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        f.write_str(SCALAR_EXPECTED)
+    }
+
+    fn visit_str<E: de::Error>(self, v: &str) -> Result<Scalar, E> {
+        Ok(Scalar(v.to_string()))
+    }
+
+    fn visit_i64<E: de::Error>(self, v: i64) -> Result<Scalar, E> {
+        Ok(Scalar(v.to_string()))
+    }
+
+    fn visit_u64<E: de::Error>(self, v: u64) -> Result<Scalar, E> {
+        Ok(Scalar(v.to_string()))
+    }
+
+    fn visit_f64<E: de::Error>(self, v: f64) -> Result<Scalar, E> {
+        if v.is_finite() {
+            Ok(Scalar(format!("{v:e}")))
+        } else {
+            Ok(Scalar(format!("{v}")))
+        }
+    }
+}
+
+/// A per-leg value: one value for both legs, or `{p: …, n: …}`.
+#[derive(Debug, Clone, PartialEq)]
+pub enum PerLeg {
+    /// The same nominal value for both legs (each within its own tolerance).
+    Both(Scalar),
+    /// A value for each leg.
+    Each {
+        /// The p (non-inverting side) leg.
+        p: Scalar,
+        /// The n (inverting side) leg.
+        n: Scalar,
+    },
+}
+
+impl<'de> Deserialize<'de> for PerLeg {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        deserializer.deserialize_any(PerLegVisitor)
+    }
+}
+
+struct PerLegVisitor;
+
+impl<'de> Visitor<'de> for PerLegVisitor {
+    type Value = PerLeg;
+
+    fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+        f.write_str("one value for both legs (e.g. `1k ±1 %`) or a map `{p: …, n: …}` with a value per leg")
+    }
+
+    fn visit_str<E: de::Error>(self, v: &str) -> Result<PerLeg, E> {
+        ScalarVisitor.visit_str(v).map(PerLeg::Both)
+    }
+
+    fn visit_i64<E: de::Error>(self, v: i64) -> Result<PerLeg, E> {
+        ScalarVisitor.visit_i64(v).map(PerLeg::Both)
+    }
+
+    fn visit_u64<E: de::Error>(self, v: u64) -> Result<PerLeg, E> {
+        ScalarVisitor.visit_u64(v).map(PerLeg::Both)
+    }
+
+    fn visit_f64<E: de::Error>(self, v: f64) -> Result<PerLeg, E> {
+        ScalarVisitor.visit_f64(v).map(PerLeg::Both)
+    }
+
+    fn visit_map<A: MapAccess<'de>>(self, mut map: A) -> Result<PerLeg, A::Error> {
+        let mut p = None;
+        let mut n = None;
+        while let Some(key) = map.next_key::<String>()? {
+            match key.as_str() {
+                "p" if p.is_none() => p = Some(map.next_value::<Scalar>()?),
+                "n" if n.is_none() => n = Some(map.next_value::<Scalar>()?),
+                "p" | "n" => return Err(de::Error::duplicate_field(if key == "p" { "p" } else { "n" })),
+                other => return Err(de::Error::unknown_field(other, &["p", "n"])),
+            }
+        }
+        match (p, n) {
+            (Some(p), Some(n)) => Ok(PerLeg::Each { p, n }),
+            (None, _) => Err(de::Error::missing_field("p")),
+            (_, None) => Err(de::Error::missing_field("n")),
+        }
+    }
+}

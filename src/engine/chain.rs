@@ -1,0 +1,45 @@
+//! Solving the whole chain at one point.
+
+use super::linalg::Mat2;
+use super::mixed_mode::MixedMode;
+use crate::stage::{Point, SingularStage, Stage, StageSolve};
+
+/// Why the chain has no usable solution at a point.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EngineError {
+    /// A stage's circuit is singular.
+    #[error(transparent)]
+    Singular(#[from] SingularStage),
+    /// The chain passes no differential signal, so nothing can be referred
+    /// to its input.
+    #[error("the chain has no differential gain at {freq_hz} Hz, so errors cannot be referred to its input")]
+    NoDifferentialGain {
+        /// The frequency.
+        freq_hz: f64,
+    },
+}
+
+/// The mixed-mode response of the whole chain at `point`, from the sensor's
+/// (vdm, vcm) to the last stage's output.
+///
+/// Each stage is solved with the input admittance of the stage after it as
+/// its load, so the source network and the first amplifier are solved
+/// together; stages are then multiplied in node-voltage form, which keeps a
+/// single-ended output (output, ground) exact when a differential stage
+/// follows it.
+pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, EngineError> {
+    let mut total = Mat2::IDENTITY;
+    for (index, stage) in chain.iter().enumerate() {
+        let load = chain
+            .get(index + 1)
+            .map_or(Mat2::ZERO, |next| next.kind.input_admittance(point));
+        total = stage.kind.transfer(point, &load)? * total;
+    }
+    let response = MixedMode::from_nodes(&total);
+    if response.dd.norm() == 0.0 || !response.dd.norm().is_finite() {
+        return Err(EngineError::NoDifferentialGain {
+            freq_hz: point.freq_hz,
+        });
+    }
+    Ok(response)
+}

@@ -1,0 +1,12 @@
+//! The exact small-signal engine: chain the stages at a frequency, turn the
+//! node-voltage response into a mixed-mode one, and split the CM-to-DM
+//! conversion into contributions.
+
+pub mod linalg;
+mod chain;
+mod contributions;
+mod mixed_mode;
+
+pub use chain::{chain_response, EngineError};
+pub use contributions::{analyse_point, Contribution, PointAnalysis, RESOLUTION_FLOOR};
+pub use mixed_mode::MixedMode;

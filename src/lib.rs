@@ -1,0 +1,8 @@
+//! Common-mode rejection budgets for differential sensor front ends.
+#![warn(missing_docs)]
+
+pub mod engine;
+pub mod model;
+pub mod quantity;
+pub mod stage;
+pub mod budget;

@@ -1,0 +1,180 @@
+//! The validated budget model.
+
+use super::Parameters;
+use crate::quantity::{format_si, AmplitudeForm};
+use crate::stage::Stage;
+
+/// A validated budget, ready for the engine.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Budget {
+    /// The budget's name.
+    pub name: String,
+    /// Free-text notes from the file.
+    pub notes: Option<String>,
+    /// The stages, from the sensor to the last amplifier.
+    pub chain: Vec<Stage>,
+    /// Every circuit parameter of every stage.
+    pub parameters: Parameters,
+    /// The common-mode interference sources.
+    pub interference: Vec<Interference>,
+    /// What the design must achieve, when stated.
+    pub requirement: Option<Requirement>,
+    /// Further frequencies (Hz) at which to report the CMRR.
+    pub extra_frequencies_hz: Vec<f64>,
+    /// Facts that call for safety cautions.
+    pub safety: Safety,
+}
+
+/// An amplitude of a common-mode voltage or of an allowed error.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Amplitude {
+    /// The value in volts, in the stated form.
+    pub volts: f64,
+    /// rms, peak or peak-to-peak for an alternating value; `None` for a DC
+    /// value.
+    pub form: Option<AmplitudeForm>,
+}
+
+impl Amplitude {
+    /// The peak value: a DC value is its own peak; a sinusoid's rms value is
+    /// multiplied by √2, its peak-to-peak value halved.
+    pub fn peak_volts(&self) -> f64 {
+        self.volts * self.form.map_or(1.0, AmplitudeForm::to_peak_factor)
+    }
+
+    /// The same signal expressed in `form` (`None`: as a DC or peak value).
+    pub fn volts_in(&self, form: Option<AmplitudeForm>) -> f64 {
+        self.peak_volts() / form.map_or(1.0, AmplitudeForm::to_peak_factor)
+    }
+
+    /// Printed with its unit and form, e.g. `1.00 V rms`.
+    pub fn describe(&self) -> String {
+        describe_volts(self.volts, self.form)
+    }
+}
+
+/// A voltage printed with its unit and, for alternating values, its form.
+pub fn describe_volts(volts: f64, form: Option<AmplitudeForm>) -> String {
+    match form {
+        Some(form) => format!("{} {}", format_si(volts, "V"), form.suffix()),
+        None => format_si(volts, "V"),
+    }
+}
+
+/// A common-mode interference source.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Interference {
+    /// What it is, as the user named it.
+    pub name: String,
+    /// Its common-mode amplitude at the sensor.
+    pub amplitude: Amplitude,
+    /// Its frequency in hertz (0 for DC).
+    pub frequency_hz: f64,
+    /// The largest error it may leave, referred to the input; overrides the
+    /// requirement's default when given.
+    pub max_error: Option<ErrorLimit>,
+}
+
+/// An allowed error referred to the input.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum ErrorLimit {
+    /// An absolute voltage.
+    Volts(Amplitude),
+    /// A fraction of the full-scale differential input (peak error over
+    /// full scale).
+    OfFullScale {
+        /// The fraction (e.g. 10e-6 for 10 ppm).
+        fraction: f64,
+        /// The full-scale differential input in volts.
+        full_scale_volts: f64,
+    },
+}
+
+impl ErrorLimit {
+    /// The allowed error as a peak voltage.
+    pub fn peak_volts(&self) -> f64 {
+        match self {
+            ErrorLimit::Volts(amplitude) => amplitude.peak_volts(),
+            ErrorLimit::OfFullScale {
+                fraction,
+                full_scale_volts,
+            } => fraction * full_scale_volts,
+        }
+    }
+}
+
+/// Which total a requirement is judged on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Judgement {
+    /// The sum of the magnitudes of all contributions (an upper bound).
+    WorstCase,
+    /// Systematic part plus the root-sum-square of the random ones.
+    Rss,
+    /// The values as given, with no tolerance.
+    Nominal,
+}
+
+impl Judgement {
+    /// The name printed in reports.
+    pub fn label(self) -> &'static str {
+        match self {
+            Judgement::WorstCase => "worst case",
+            Judgement::Rss => "RSS",
+            Judgement::Nominal => "nominal",
+        }
+    }
+}
+
+/// A minimum CMRR at one frequency.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MinimumCmrr {
+    /// The frequency in hertz.
+    pub frequency_hz: f64,
+    /// The minimum CMRR in dB.
+    pub cmrr_db: f64,
+}
+
+/// What the design must achieve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Requirement {
+    /// Which total is compared with the limits.
+    pub judged_on: Judgement,
+    /// Minimum CMRR of the whole chain at given frequencies.
+    pub min_cmrr: Vec<MinimumCmrr>,
+    /// The default allowed error per interference source, referred to the
+    /// input.
+    pub max_error: Option<ErrorLimit>,
+    /// The full-scale differential input, for errors in ppm or % of it.
+    pub full_scale_volts: Option<f64>,
+}
+
+/// Facts about the application that call for safety cautions.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Safety {
+    /// The front end is connected to a patient.
+    pub patient_connected: bool,
+    /// The measured circuit is referred to the mains.
+    pub mains_referenced: bool,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn amplitude_forms_convert_through_peak() {
+        // Sinusoid: peak = sqrt(2) rms, peak-to-peak = 2 peak (common practice, no source).
+        let rms = Amplitude {
+            volts: 1.0,
+            form: Some(AmplitudeForm::Rms),
+        };
+        assert_relative_eq!(rms.peak_volts(), 2f64.sqrt());
+        assert_relative_eq!(
+            rms.volts_in(Some(AmplitudeForm::PeakToPeak)),
+            2.0 * 2f64.sqrt()
+        );
+        assert_eq!(rms.describe(), "1.00 V rms");
+    }
+}

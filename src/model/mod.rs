@@ -1,0 +1,10 @@
+//! The validated budget: what the engine computes from. Built only by the
+//! validator in [`crate::budget`]; the engine never sees budget-file text.
+
+mod budget;
+mod params;
+
+pub use budget::{
+    Amplitude, Budget, ErrorLimit, Interference, Judgement, MinimumCmrr, Requirement, Safety,
+};
+pub use params::{ParamId, Parameter, Parameters, Presentation, Variation};

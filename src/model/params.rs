@@ -1,0 +1,179 @@
+//! The flat table of circuit parameters.
+//!
+//! Every number a stage uses in its solve lives here, addressed by a
+//! [`ParamId`]. The engine evaluates the chain against a slice of values (one
+//! per parameter), so a contribution is "the nominal slice with one entry
+//! moved to its extreme", and a later Monte Carlo or sizing pass only has to
+//! fill a different slice: no stage is rebuilt, nothing is allocated per
+//! evaluation.
+
+use crate::quantity::{format_db, format_fraction, format_si, Dimension};
+
+/// Index of a parameter in [`Parameters`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct ParamId(pub usize);
+
+/// How a parameter may differ from its nominal value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Variation {
+    /// Known exactly (or treated so): no contribution.
+    Fixed,
+    /// Within `nominal × (1 ± tolerance)`; sign unknown.
+    Relative {
+        /// The relative tolerance, a fraction below 1.
+        tolerance: f64,
+    },
+    /// Anywhere in `[-magnitude, +magnitude]` around a nominal of zero; used
+    /// for quantities known only as a bound of unknown sign, such as the
+    /// reciprocal of an op-amp's minimum CMRR.
+    SignedBound {
+        /// The bound on the magnitude.
+        magnitude: f64,
+    },
+}
+
+/// How a parameter is shown to the user.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Presentation {
+    /// A value in SI units of a dimension, with its tolerance.
+    Value(Dimension),
+    /// The reciprocal of a CMRR bound, shown as "≥ X dB, sign unknown".
+    ReciprocalCmrr,
+}
+
+/// One circuit parameter.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Parameter {
+    /// Short name of the part or property, e.g. `R2` or `cable C (n leg)`.
+    pub name: String,
+    /// Index of the stage it belongs to, in chain order.
+    pub stage: usize,
+    /// The budget-file field it came from, e.g. `chain[1].r2`.
+    pub field: String,
+    /// The nominal value in SI units.
+    pub nominal: f64,
+    /// How it may vary.
+    pub variation: Variation,
+    /// How to print it.
+    pub presentation: Presentation,
+}
+
+impl Parameter {
+    /// The two extreme values it can take, or `None` when it is fixed.
+    pub fn extremes(&self) -> Option<[f64; 2]> {
+        match self.variation {
+            Variation::Fixed => None,
+            Variation::Relative { tolerance } => Some([
+                self.nominal * (1.0 - tolerance),
+                self.nominal * (1.0 + tolerance),
+            ]),
+            Variation::SignedBound { magnitude } => {
+                Some([self.nominal - magnitude, self.nominal + magnitude])
+            }
+        }
+    }
+
+    /// Whether it varies, and so contributes to the budget.
+    pub fn varies(&self) -> bool {
+        self.extremes().is_some()
+    }
+
+    /// Its value and spread as an engineer would write them, e.g.
+    /// `10.0 kΩ ±0.1 %` or `≥ 100.0 dB, sign unknown`.
+    pub fn describe(&self) -> String {
+        match (self.presentation, self.variation) {
+            (Presentation::ReciprocalCmrr, Variation::SignedBound { magnitude }) => {
+                format!("≥ {}, sign unknown", format_db(-20.0 * magnitude.log10()))
+            }
+            (Presentation::ReciprocalCmrr, _) => "ideal".to_string(),
+            (Presentation::Value(dimension), variation) => {
+                let value = format_si(self.nominal, dimension.symbol());
+                match variation {
+                    Variation::Relative { tolerance } => {
+                        format!("{value} ±{}", format_fraction(tolerance))
+                    }
+                    Variation::SignedBound { magnitude } => {
+                        format!("{value} ±{}", format_si(magnitude, dimension.symbol()))
+                    }
+                    Variation::Fixed => value,
+                }
+            }
+        }
+    }
+}
+
+/// All parameters of a budget, in the order the stages declared them.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Parameters {
+    list: Vec<Parameter>,
+}
+
+impl Parameters {
+    /// An empty table.
+    pub fn new() -> Parameters {
+        Parameters::default()
+    }
+
+    /// Add a parameter and return its id.
+    pub fn add(&mut self, parameter: Parameter) -> ParamId {
+        self.list.push(parameter);
+        ParamId(self.list.len() - 1)
+    }
+
+    /// The parameter with this id.
+    pub fn get(&self, id: ParamId) -> &Parameter {
+        &self.list[id.0]
+    }
+
+    /// Every parameter, in id order.
+    pub fn iter(&self) -> impl Iterator<Item = (ParamId, &Parameter)> {
+        self.list.iter().enumerate().map(|(i, p)| (ParamId(i), p))
+    }
+
+    /// How many there are.
+    pub fn len(&self) -> usize {
+        self.list.len()
+    }
+
+    /// Whether there are none.
+    pub fn is_empty(&self) -> bool {
+        self.list.is_empty()
+    }
+
+    /// The nominal values, indexed by [`ParamId`].
+    pub fn nominal_values(&self) -> Vec<f64> {
+        self.list.iter().map(|p| p.nominal).collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn resistor(tolerance: f64) -> Parameter {
+        Parameter {
+            name: "R1".into(),
+            stage: 0,
+            field: "chain[0].r1".into(),
+            nominal: 10e3,
+            variation: Variation::Relative { tolerance },
+            presentation: Presentation::Value(Dimension::Resistance),
+        }
+    }
+
+    #[test]
+    fn extremes_and_description() {
+        let p = resistor(1e-3);
+        let [lo, hi] = p.extremes().unwrap();
+        assert!((lo - 9990.0).abs() < 1e-9 && (hi - 10010.0).abs() < 1e-9);
+        assert_eq!(p.describe(), "10.0 kΩ ±0.1 %");
+        let bound = Parameter {
+            nominal: 0.0,
+            variation: Variation::SignedBound { magnitude: 1e-5 },
+            presentation: Presentation::ReciprocalCmrr,
+            ..resistor(0.0)
+        };
+        assert_eq!(bound.describe(), "≥ 100.0 dB, sign unknown");
+        assert_eq!(bound.extremes(), Some([-1e-5, 1e-5]));
+    }
+}

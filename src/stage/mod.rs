@@ -1,0 +1,129 @@
+//! The stage kinds of a signal chain, each with its exact small-signal
+//! solve.
+//!
+//! A stage is seen from the chain as a two-port on node voltages: its two
+//! input pins (p, n) load whatever drives them with an input admittance
+//! matrix, and it maps its input pin voltages to its two output node
+//! voltages with a 2x2 transfer matrix, given the admittance of whatever it
+//! drives. A single-ended output is the pair (output, reference), the
+//! reference being ground. The chain module turns products of these into
+//! differential/common-mode (mixed-mode) responses.
+//!
+//! To add a stage kind: write its module here (parameters as
+//! [`ParamId`](crate::model::ParamId)s, the exact solve in
+//! [`StageSolve`]), add a variant to [`StageKind`], and teach the budget
+//! file's raw schema and validator to build it (see DEVELOPERS.md).
+
+mod difference_amp;
+mod opamp;
+mod source_network;
+
+pub use difference_amp::DifferenceAmp;
+pub use opamp::OpAmp;
+pub use source_network::{Leg, SourceImpedance, SourceNetwork};
+
+use crate::engine::linalg::{Mat2, C64};
+
+/// One frequency and one set of parameter values at which to solve.
+#[derive(Debug, Clone, Copy)]
+pub struct Point<'a> {
+    /// Frequency in hertz.
+    pub freq_hz: f64,
+    /// The complex frequency `s = j 2π f`.
+    pub s: C64,
+    /// Parameter values, indexed by [`ParamId`](crate::model::ParamId).
+    pub values: &'a [f64],
+}
+
+impl<'a> Point<'a> {
+    /// A point at `freq_hz` with the given parameter values.
+    pub fn new(freq_hz: f64, values: &'a [f64]) -> Point<'a> {
+        Point {
+            freq_hz,
+            s: C64::new(0.0, 2.0 * std::f64::consts::PI * freq_hz),
+            values,
+        }
+    }
+
+    /// The value of a parameter.
+    pub fn value(&self, id: crate::model::ParamId) -> f64 {
+        self.values[id.0]
+    }
+
+    /// The value of an optional parameter, or `default` when absent.
+    pub fn value_or(&self, id: Option<crate::model::ParamId>, default: f64) -> f64 {
+        id.map_or(default, |id| self.value(id))
+    }
+}
+
+/// Why a stage has no unique small-signal solution at a point.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("the {stage} has no unique small-signal solution at {freq_hz} Hz (a singular circuit)")]
+pub struct SingularStage {
+    /// The stage kind that failed.
+    pub stage: &'static str,
+    /// The frequency at which it failed.
+    pub freq_hz: f64,
+}
+
+/// The exact small-signal behaviour of a stage, in node-voltage form.
+pub trait StageSolve {
+    /// The admittance its input pins present to whatever drives them:
+    /// `[i_p, i_n] = Y [v_p, v_n]`, currents flowing into the pins.
+    fn input_admittance(&self, point: &Point) -> Mat2;
+
+    /// The transfer from its input pin voltages to its output node voltages,
+    /// given the admittance `load` of what it drives.
+    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage>;
+}
+
+/// A stage of the chain, with the label the user gave it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Stage {
+    /// The user's label, or the kind's default name.
+    pub label: String,
+    /// What it is.
+    pub kind: StageKind,
+}
+
+/// The kinds of stage the engine can solve.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StageKind {
+    /// Source impedances, cable, input filter: drives the first amplifier.
+    SourceNetwork(SourceNetwork),
+    /// One op-amp and four resistors.
+    DifferenceAmp(DifferenceAmp),
+}
+
+impl StageKind {
+    /// The kind's name as printed.
+    pub fn kind_name(&self) -> &'static str {
+        match self {
+            StageKind::SourceNetwork(_) => "source network",
+            StageKind::DifferenceAmp(_) => "difference amplifier",
+        }
+    }
+
+    /// Whether the stage amplifies (presents an amplifier input); a source
+    /// network does not.
+    pub fn is_amplifier(&self) -> bool {
+        !matches!(self, StageKind::SourceNetwork(_))
+    }
+
+    fn solver(&self) -> &dyn StageSolve {
+        match self {
+            StageKind::SourceNetwork(stage) => stage,
+            StageKind::DifferenceAmp(stage) => stage,
+        }
+    }
+}
+
+impl StageSolve for StageKind {
+    fn input_admittance(&self, point: &Point) -> Mat2 {
+        self.solver().input_admittance(point)
+    }
+
+    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
+        self.solver().transfer(point, load)
+    }
+}
