@@ -1,8 +1,9 @@
 //! Common-mode rejection budgets for differential sensor front ends.
 #![warn(missing_docs)]
 
+pub mod budget;
 pub mod engine;
 pub mod model;
 pub mod quantity;
+pub mod report;
 pub mod stage;
-pub mod budget;

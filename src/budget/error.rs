@@ -103,7 +103,10 @@ mod tests {
     fn suggestions() {
         assert_eq!(edit_distance("kitten", "sitting"), 3);
         assert_eq!(closest("r5", &["r1", "r2", "label"]), Some("r1"));
-        assert_eq!(closest("diff_amp", &["source", "difference_amp"]), Some("difference_amp"));
+        assert_eq!(
+            closest("diff_amp", &["source", "difference_amp"]),
+            Some("difference_amp")
+        );
         assert_eq!(closest("zzzzzz", &["source", "difference_amp"]), None);
     }
 

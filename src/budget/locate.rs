@@ -42,8 +42,12 @@ impl SourceMap {
                 column: span.start.col() + 1,
             };
             match event {
-                Event::Scalar(..) | Event::Alias(_) | Event::MappingStart(..) | Event::SequenceStart(..) => {
-                    let is_container = matches!(event, Event::MappingStart(..) | Event::SequenceStart(..));
+                Event::Scalar(..)
+                | Event::Alias(_)
+                | Event::MappingStart(..)
+                | Event::SequenceStart(..) => {
+                    let is_container =
+                        matches!(event, Event::MappingStart(..) | Event::SequenceStart(..));
                     let path = match stack.last_mut() {
                         None => String::new(),
                         Some(Frame::Map { path, key }) => match key.take() {
@@ -117,11 +121,17 @@ mod tests {
         assert_eq!(map.locate("name"), Some(Position { line: 1, column: 7 }));
         assert_eq!(
             map.locate("chain[0].source.resistance"),
-            Some(Position { line: 4, column: 19 })
+            Some(Position {
+                line: 4,
+                column: 19
+            })
         );
         assert_eq!(
             map.locate("chain[1].difference_amp.r1"),
-            Some(Position { line: 6, column: 11 })
+            Some(Position {
+                line: 6,
+                column: 11
+            })
         );
         assert_eq!(map.locate("chain[1].difference_amp.r2.n").unwrap().line, 7);
         // A missing field falls back to its enclosing map.

@@ -70,7 +70,11 @@ fn suggest_fix(message: &str) -> Option<String> {
     if message.starts_with("unknown field") || message.starts_with("unknown variant") {
         let words = quoted(message);
         let (unknown, expected) = words.split_first()?;
-        let what = if message.starts_with("unknown field") { "field" } else { "stage kind" };
+        let what = if message.starts_with("unknown field") {
+            "field"
+        } else {
+            "stage kind"
+        };
         if expected.is_empty() {
             return Some(format!("remove `{unknown}`: this map takes no such {what}"));
         }
@@ -95,10 +99,16 @@ mod tests {
 
     #[test]
     fn fixes_for_unknown_names() {
-        let fix = suggest_fix("unknown field `r5`, expected one of `label`, `r1`, `r2`, `r3`, `r4`").unwrap();
+        let fix =
+            suggest_fix("unknown field `r5`, expected one of `label`, `r1`, `r2`, `r3`, `r4`")
+                .unwrap();
         assert!(fix.starts_with("did you mean `r1`?"), "{fix}");
-        let fix = suggest_fix("unknown variant `diff_amp`, expected `source` or `difference_amp`").unwrap();
+        let fix = suggest_fix("unknown variant `diff_amp`, expected `source` or `difference_amp`")
+            .unwrap();
         assert!(fix.contains("`difference_amp`"), "{fix}");
-        assert_eq!(suggest_fix("missing field `r4`").unwrap(), "add `r4: …` here");
+        assert_eq!(
+            suggest_fix("missing field `r4`").unwrap(),
+            "add `r4: …` here"
+        );
     }
 }

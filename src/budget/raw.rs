@@ -17,6 +17,7 @@ pub struct RawBudget {
     pub patient_connected: Option<bool>,
     #[serde(default)]
     pub mains_referenced: Option<bool>,
+    #[serde(with = "serde_yaml::with::singleton_map_recursive")]
     pub chain: Vec<RawStage>,
     #[serde(default)]
     pub interference: Vec<RawInterference>,
@@ -210,7 +211,9 @@ impl<'de> Visitor<'de> for PerLegVisitor {
     type Value = PerLeg;
 
     fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-        f.write_str("one value for both legs (e.g. `1k ±1 %`) or a map `{p: …, n: …}` with a value per leg")
+        f.write_str(
+            "one value for both legs (e.g. `1k ±1 %`) or a map `{p: …, n: …}` with a value per leg",
+        )
     }
 
     fn visit_str<E: de::Error>(self, v: &str) -> Result<PerLeg, E> {
@@ -236,7 +239,13 @@ impl<'de> Visitor<'de> for PerLegVisitor {
             match key.as_str() {
                 "p" if p.is_none() => p = Some(map.next_value::<Scalar>()?),
                 "n" if n.is_none() => n = Some(map.next_value::<Scalar>()?),
-                "p" | "n" => return Err(de::Error::duplicate_field(if key == "p" { "p" } else { "n" })),
+                "p" | "n" => {
+                    return Err(de::Error::duplicate_field(if key == "p" {
+                        "p"
+                    } else {
+                        "n"
+                    }))
+                }
                 other => return Err(de::Error::unknown_field(other, &["p", "n"])),
             }
         }

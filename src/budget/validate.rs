@@ -75,7 +75,11 @@ impl Validator<'_> {
         let quantity = match parse_quantity(&scalar.0, dimension) {
             Ok(q) => q,
             Err(error) => {
-                self.problem(path, error.to_string(), format!("write {}", dimension.describe()));
+                self.problem(
+                    path,
+                    error.to_string(),
+                    format!("write {}", dimension.describe()),
+                );
                 return None;
             }
         };
@@ -85,12 +89,18 @@ impl Validator<'_> {
         };
         if !ok {
             let (what, fix) = match range {
-                Range::Positive => ("above zero", "give a positive value, or leave the field out when the part is absent"),
+                Range::Positive => (
+                    "above zero",
+                    "give a positive value, or leave the field out when the part is absent",
+                ),
                 Range::NonNegative => ("zero or above", "give a value of zero or more"),
             };
             self.problem(
                 path,
-                format!("`{}` is not physical here: a {dimension} must be {what}", scalar.0.trim()),
+                format!(
+                    "`{}` is not physical here: a {dimension} must be {what}",
+                    scalar.0.trim()
+                ),
                 fix,
             );
             return None;
@@ -98,7 +108,10 @@ impl Validator<'_> {
         if quantity.tolerance.is_some() && !tolerance_allowed {
             self.problem(
                 path,
-                format!("`{}` has a tolerance, but this field takes a single value", scalar.0.trim()),
+                format!(
+                    "`{}` has a tolerance, but this field takes a single value",
+                    scalar.0.trim()
+                ),
                 "remove the `±…` part",
             );
             return None;
@@ -116,17 +129,21 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<ParamId> {
         let quantity = self.quantity(scalar, path, dimension, Range::Positive, true)?;
-        Some(self.parameters.add(Parameter {
-            name,
-            stage,
-            field: path.to_string(),
-            nominal: quantity.value,
-            variation: quantity
-                .tolerance
-                .filter(|t| *t > 0.0)
-                .map_or(Variation::Fixed, |tolerance| Variation::Relative { tolerance }),
-            presentation: Presentation::Value(dimension),
-        }))
+        Some(
+            self.parameters.add(Parameter {
+                name,
+                stage,
+                field: path.to_string(),
+                nominal: quantity.value,
+                variation: quantity
+                    .tolerance
+                    .filter(|t| *t > 0.0)
+                    .map_or(Variation::Fixed, |tolerance| Variation::Relative {
+                        tolerance,
+                    }),
+                presentation: Presentation::Value(dimension),
+            }),
+        )
     }
 
     /// A fixed (untoleranced) parameter.
@@ -187,7 +204,11 @@ impl Validator<'_> {
 
     fn budget(&mut self, raw: RawBudget) -> Budget {
         if raw.name.trim().is_empty() {
-            self.problem("name", "the budget's name is empty", "give the design a name, e.g. `name: scale front end, rev B`");
+            self.problem(
+                "name",
+                "the budget's name is empty",
+                "give the design a name, e.g. `name: scale front end, rev B`",
+            );
         }
         let chain = self.chain(&raw.chain);
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
@@ -196,15 +217,23 @@ impl Validator<'_> {
             .interference
             .iter()
             .enumerate()
-            .filter_map(|(i, source)| self.interference(source, &format!("interference[{i}]"), full_scale))
+            .filter_map(|(i, source)| {
+                self.interference(source, &format!("interference[{i}]"), full_scale)
+            })
             .collect();
         let extra_frequencies_hz: Vec<f64> = raw
             .extra_frequencies
             .iter()
             .enumerate()
             .filter_map(|(i, f)| {
-                self.quantity(f, &format!("extra_frequencies[{i}]"), Dimension::Frequency, Range::NonNegative, false)
-                    .map(|q| q.value)
+                self.quantity(
+                    f,
+                    &format!("extra_frequencies[{i}]"),
+                    Dimension::Frequency,
+                    Range::NonNegative,
+                    false,
+                )
+                .map(|q| q.value)
             })
             .collect();
         self.check_error_limits(&raw.interference, &interference, requirement.as_ref());
@@ -284,12 +313,30 @@ impl Validator<'_> {
         let problems_before = self.problems.len();
         let impedance = match (&raw.resistance, &raw.bridge_arm) {
             (Some(resistance), None) => {
-                let [rp, rn] = self.leg_parts(resistance, &format!("{path}.resistance"), Dimension::Resistance, "source R", stage);
-                let [cp, cn] = self.optional_leg_parts(&raw.capacitance, &format!("{path}.capacitance"), Dimension::Capacitance, "source C", stage);
+                let [rp, rn] = self.leg_parts(
+                    resistance,
+                    &format!("{path}.resistance"),
+                    Dimension::Resistance,
+                    "source R",
+                    stage,
+                );
+                let [cp, cn] = self.optional_leg_parts(
+                    &raw.capacitance,
+                    &format!("{path}.capacitance"),
+                    Dimension::Capacitance,
+                    "source C",
+                    stage,
+                );
                 match (rp, rn) {
                     (Some(rp), Some(rn)) => Some([
-                        SourceImpedance::Resistive { resistance: rp, capacitance: cp },
-                        SourceImpedance::Resistive { resistance: rn, capacitance: cn },
+                        SourceImpedance::Resistive {
+                            resistance: rp,
+                            capacitance: cp,
+                        },
+                        SourceImpedance::Resistive {
+                            resistance: rn,
+                            capacitance: cn,
+                        },
                     ]),
                     _ => None,
                 }
@@ -304,15 +351,45 @@ impl Validator<'_> {
                 }
                 let arm_path = format!("{path}.bridge_arm");
                 let arms = [
-                    self.part(arm, &arm_path, Dimension::Resistance, "bridge arm (excitation to p)".into(), stage),
-                    self.part(arm, &arm_path, Dimension::Resistance, "bridge arm (p to ground)".into(), stage),
-                    self.part(arm, &arm_path, Dimension::Resistance, "bridge arm (excitation to n)".into(), stage),
-                    self.part(arm, &arm_path, Dimension::Resistance, "bridge arm (n to ground)".into(), stage),
+                    self.part(
+                        arm,
+                        &arm_path,
+                        Dimension::Resistance,
+                        "bridge arm (excitation to p)".into(),
+                        stage,
+                    ),
+                    self.part(
+                        arm,
+                        &arm_path,
+                        Dimension::Resistance,
+                        "bridge arm (p to ground)".into(),
+                        stage,
+                    ),
+                    self.part(
+                        arm,
+                        &arm_path,
+                        Dimension::Resistance,
+                        "bridge arm (excitation to n)".into(),
+                        stage,
+                    ),
+                    self.part(
+                        arm,
+                        &arm_path,
+                        Dimension::Resistance,
+                        "bridge arm (n to ground)".into(),
+                        stage,
+                    ),
                 ];
                 match arms {
                     [Some(a), Some(b), Some(c), Some(d)] => Some([
-                        SourceImpedance::BridgeNode { upper_arm: a, lower_arm: b },
-                        SourceImpedance::BridgeNode { upper_arm: c, lower_arm: d },
+                        SourceImpedance::BridgeNode {
+                            upper_arm: a,
+                            lower_arm: b,
+                        },
+                        SourceImpedance::BridgeNode {
+                            upper_arm: c,
+                            lower_arm: d,
+                        },
                     ]),
                     _ => None,
                 }
@@ -338,12 +415,42 @@ impl Validator<'_> {
             Some(cable) => self.cable(cable, &format!("{path}.cable"), stage),
             None => ([None, None], 0.0),
         };
-        let series = self.optional_leg_parts(&raw.series_resistance, &format!("{path}.series_resistance"), Dimension::Resistance, "series R", stage);
-        let filter = self.optional_leg_parts(&raw.filter_capacitance, &format!("{path}.filter_capacitance"), Dimension::Capacitance, "filter C", stage);
-        let input_r = self.optional_leg_parts(&raw.input_resistance, &format!("{path}.input_resistance"), Dimension::Resistance, "input R", stage);
-        let input_c = self.optional_leg_parts(&raw.input_capacitance, &format!("{path}.input_capacitance"), Dimension::Capacitance, "input C", stage);
+        let series = self.optional_leg_parts(
+            &raw.series_resistance,
+            &format!("{path}.series_resistance"),
+            Dimension::Resistance,
+            "series R",
+            stage,
+        );
+        let filter = self.optional_leg_parts(
+            &raw.filter_capacitance,
+            &format!("{path}.filter_capacitance"),
+            Dimension::Capacitance,
+            "filter C",
+            stage,
+        );
+        let input_r = self.optional_leg_parts(
+            &raw.input_resistance,
+            &format!("{path}.input_resistance"),
+            Dimension::Resistance,
+            "input R",
+            stage,
+        );
+        let input_c = self.optional_leg_parts(
+            &raw.input_capacitance,
+            &format!("{path}.input_capacitance"),
+            Dimension::Capacitance,
+            "input C",
+            stage,
+        );
         let differential_capacitance = raw.differential_capacitance.as_ref().and_then(|c| {
-            self.part(c, &format!("{path}.differential_capacitance"), Dimension::Capacitance, "differential C".into(), stage)
+            self.part(
+                c,
+                &format!("{path}.differential_capacitance"),
+                Dimension::Capacitance,
+                "differential C".into(),
+                stage,
+            )
         });
         let impedance = impedance?;
         if self.problems.len() > problems_before {
@@ -367,11 +474,23 @@ impl Validator<'_> {
     /// The cable: capacitance per length (per leg) times length, and the
     /// guard drive.
     fn cable(&mut self, raw: &RawCable, path: &str, stage: usize) -> ([Option<ParamId>; 2], f64) {
-        let length = self.quantity(&raw.length, &format!("{path}.length"), Dimension::Length, Range::Positive, false);
+        let length = self.quantity(
+            &raw.length,
+            &format!("{path}.length"),
+            Dimension::Length,
+            Range::Positive,
+            false,
+        );
         let guard = match &raw.guard_drive {
             Some(g) => {
                 let guard_path = format!("{path}.guard_drive");
-                match self.quantity(g, &guard_path, Dimension::Fraction, Range::NonNegative, false) {
+                match self.quantity(
+                    g,
+                    &guard_path,
+                    Dimension::Fraction,
+                    Range::NonNegative,
+                    false,
+                ) {
                     Some(q) if q.value > 1.0 => {
                         self.problem(&guard_path, format!("`{}` drives the shield beyond the common mode", g.0.trim()), "a guard drive lies between `0 %` (grounded shield) and `100 %` (perfect guard)");
                         0.0
@@ -385,23 +504,38 @@ impl Validator<'_> {
         let capacitance_path = format!("{path}.capacitance");
         let (p, n, p_path, n_path) = match &raw.capacitance {
             PerLeg::Both(s) => (s, s, capacitance_path.clone(), capacitance_path.clone()),
-            PerLeg::Each { p, n } => (p, n, format!("{capacitance_path}.p"), format!("{capacitance_path}.n")),
+            PerLeg::Each { p, n } => (
+                p,
+                n,
+                format!("{capacitance_path}.p"),
+                format!("{capacitance_path}.n"),
+            ),
         };
         let mut ids = [None, None];
         for (leg, (scalar, leg_path)) in [(p, p_path), (n, n_path)].into_iter().enumerate() {
-            let per_length = self.quantity(scalar, &leg_path, Dimension::CapacitancePerLength, Range::Positive, true);
+            let per_length = self.quantity(
+                scalar,
+                &leg_path,
+                Dimension::CapacitancePerLength,
+                Range::Positive,
+                true,
+            );
             if let (Some(per_length), Some(length)) = (per_length, &length) {
-                ids[leg] = Some(self.parameters.add(Parameter {
-                    name: format!("cable C ({})", if leg == 0 { "p" } else { "n" }),
-                    stage,
-                    field: leg_path,
-                    nominal: per_length.value * length.value,
-                    variation: per_length
-                        .tolerance
-                        .filter(|t| *t > 0.0)
-                        .map_or(Variation::Fixed, |tolerance| Variation::Relative { tolerance }),
-                    presentation: Presentation::Value(Dimension::Capacitance),
-                }));
+                ids[leg] = Some(
+                    self.parameters.add(Parameter {
+                        name: format!("cable C ({})", if leg == 0 { "p" } else { "n" }),
+                        stage,
+                        field: leg_path,
+                        nominal: per_length.value * length.value,
+                        variation: per_length
+                            .tolerance
+                            .filter(|t| *t > 0.0)
+                            .map_or(Variation::Fixed, |tolerance| Variation::Relative {
+                                tolerance,
+                            }),
+                        presentation: Presentation::Value(Dimension::Capacitance),
+                    }),
+                );
             } else if matches!(raw.capacitance, PerLeg::Both(_)) {
                 break;
             }
@@ -409,14 +543,49 @@ impl Validator<'_> {
         (ids, guard)
     }
 
-    fn difference_amp(&mut self, raw: &RawDifferenceAmp, path: &str, stage: usize) -> Option<StageKind> {
+    fn difference_amp(
+        &mut self,
+        raw: &RawDifferenceAmp,
+        path: &str,
+        stage: usize,
+    ) -> Option<StageKind> {
         let problems_before = self.problems.len();
-        let r1 = self.part(&raw.r1, &format!("{path}.r1"), Dimension::Resistance, "R1".into(), stage);
-        let r2 = self.part(&raw.r2, &format!("{path}.r2"), Dimension::Resistance, "R2".into(), stage);
-        let r3 = self.part(&raw.r3, &format!("{path}.r3"), Dimension::Resistance, "R3".into(), stage);
-        let r4 = self.part(&raw.r4, &format!("{path}.r4"), Dimension::Resistance, "R4".into(), stage);
+        let r1 = self.part(
+            &raw.r1,
+            &format!("{path}.r1"),
+            Dimension::Resistance,
+            "R1".into(),
+            stage,
+        );
+        let r2 = self.part(
+            &raw.r2,
+            &format!("{path}.r2"),
+            Dimension::Resistance,
+            "R2".into(),
+            stage,
+        );
+        let r3 = self.part(
+            &raw.r3,
+            &format!("{path}.r3"),
+            Dimension::Resistance,
+            "R3".into(),
+            stage,
+        );
+        let r4 = self.part(
+            &raw.r4,
+            &format!("{path}.r4"),
+            Dimension::Resistance,
+            "R4".into(),
+            stage,
+        );
         let reference_resistance = raw.reference_resistance.as_ref().and_then(|r| {
-            self.part(r, &format!("{path}.reference_resistance"), Dimension::Resistance, "Rref".into(), stage)
+            self.part(
+                r,
+                &format!("{path}.reference_resistance"),
+                Dimension::Resistance,
+                "Rref".into(),
+                stage,
+            )
         });
         let opamp = match &raw.opamp {
             Some(opamp) => self.opamp(opamp, &format!("{path}.opamp"), stage),
@@ -438,21 +607,47 @@ impl Validator<'_> {
     fn opamp(&mut self, raw: &RawOpAmp, path: &str, stage: usize) -> OpAmp {
         let open_loop_gain = raw.open_loop_gain.as_ref().and_then(|g| {
             let gain_path = format!("{path}.open_loop_gain");
-            let id = self.part(g, &gain_path, Dimension::Gain, "op-amp open-loop gain".into(), stage)?;
+            let id = self.part(
+                g,
+                &gain_path,
+                Dimension::Gain,
+                "op-amp open-loop gain".into(),
+                stage,
+            )?;
             if self.parameters.get(id).nominal <= 1.0 {
-                self.problem(&gain_path, format!("`{}` is not an op-amp's open-loop gain: it must exceed 1 V/V (0 dB)", g.0.trim()), "give the data-sheet DC gain, e.g. `120 dB` or `1M`");
+                self.problem(
+                    &gain_path,
+                    format!(
+                        "`{}` is not an op-amp's open-loop gain: it must exceed 1 V/V (0 dB)",
+                        g.0.trim()
+                    ),
+                    "give the data-sheet DC gain, e.g. `120 dB` or `1M`",
+                );
                 return None;
             }
             Some(id)
         });
         let gain_bandwidth_hz = raw.gain_bandwidth.as_ref().and_then(|g| {
-            self.part(g, &format!("{path}.gain_bandwidth"), Dimension::Frequency, "op-amp gain-bandwidth".into(), stage)
+            self.part(
+                g,
+                &format!("{path}.gain_bandwidth"),
+                Dimension::Frequency,
+                "op-amp gain-bandwidth".into(),
+                stage,
+            )
         });
         let cmrr_reciprocal = raw.cmrr.as_ref().and_then(|c| {
             let cmrr_path = format!("{path}.cmrr");
             let q = self.quantity(c, &cmrr_path, Dimension::Decibels, Range::Positive, false)?;
             if q.value <= 1.0 {
-                self.problem(&cmrr_path, format!("`{}` is not a usable CMRR: it must be above 0 dB", c.0.trim()), "give the data-sheet minimum, e.g. `100 dB`");
+                self.problem(
+                    &cmrr_path,
+                    format!(
+                        "`{}` is not a usable CMRR: it must be above 0 dB",
+                        c.0.trim()
+                    ),
+                    "give the data-sheet minimum, e.g. `100 dB`",
+                );
                 return None;
             }
             Some(self.parameters.add(Parameter {
@@ -460,17 +655,29 @@ impl Validator<'_> {
                 stage,
                 field: cmrr_path,
                 nominal: 0.0,
-                variation: Variation::SignedBound { magnitude: 1.0 / q.value },
+                variation: Variation::SignedBound {
+                    magnitude: 1.0 / q.value,
+                },
                 presentation: Presentation::ReciprocalCmrr,
             }))
         });
         let cmrr_corner_hz = raw.cmrr_corner.as_ref().and_then(|c| {
             let corner_path = format!("{path}.cmrr_corner");
             if raw.cmrr.is_none() {
-                self.problem(&corner_path, "a CMRR corner is given without a CMRR", "add `cmrr: …` (the DC minimum, e.g. `100 dB`) or remove `cmrr_corner`");
+                self.problem(
+                    &corner_path,
+                    "a CMRR corner is given without a CMRR",
+                    "add `cmrr: …` (the DC minimum, e.g. `100 dB`) or remove `cmrr_corner`",
+                );
                 return None;
             }
-            self.fixed(c, &corner_path, Dimension::Frequency, "op-amp CMRR corner".into(), stage)
+            self.fixed(
+                c,
+                &corner_path,
+                Dimension::Frequency,
+                "op-amp CMRR corner".into(),
+                stage,
+            )
         });
         OpAmp {
             open_loop_gain,
@@ -482,26 +689,51 @@ impl Validator<'_> {
 
     fn amplitude(&mut self, scalar: &Scalar, path: &str) -> Option<Amplitude> {
         let q = self.quantity(scalar, path, Dimension::Voltage, Range::Positive, false)?;
-        Some(Amplitude { volts: q.value, form: q.form })
+        Some(Amplitude {
+            volts: q.value,
+            form: q.form,
+        })
     }
 
-    fn interference(&mut self, raw: &RawInterference, path: &str, full_scale: Option<f64>) -> Option<Interference> {
-        let frequency = self.quantity(&raw.frequency, &format!("{path}.frequency"), Dimension::Frequency, Range::NonNegative, false);
+    fn interference(
+        &mut self,
+        raw: &RawInterference,
+        path: &str,
+        full_scale: Option<f64>,
+    ) -> Option<Interference> {
+        let frequency = self.quantity(
+            &raw.frequency,
+            &format!("{path}.frequency"),
+            Dimension::Frequency,
+            Range::NonNegative,
+            false,
+        );
         let amplitude_path = format!("{path}.amplitude");
         let amplitude = self.amplitude(&raw.amplitude, &amplitude_path);
         let (frequency, amplitude) = (frequency?, amplitude?);
         let text = raw.amplitude.0.trim();
         if frequency.value == 0.0 && amplitude.form.is_some() {
-            self.problem(&amplitude_path, format!("`{text}` gives an rms, peak or peak-to-peak form to a DC common mode"), "write a DC common mode as a plain voltage, e.g. `2.5 V`");
+            self.problem(
+                &amplitude_path,
+                format!("`{text}` gives an rms, peak or peak-to-peak form to a DC common mode"),
+                "write a DC common mode as a plain voltage, e.g. `2.5 V`",
+            );
             return None;
         }
         if frequency.value > 0.0 && amplitude.form.is_none() {
             self.problem(&amplitude_path, format!("`{text}` does not say whether the alternating amplitude is rms, peak or peak-to-peak"), format!("write `{text} rms`, `{text} pk` or `{text} pp`"));
             return None;
         }
-        let max_error = raw.max_error.as_ref().and_then(|e| self.error_limit(e, &format!("{path}.max_error"), full_scale));
+        let max_error = raw
+            .max_error
+            .as_ref()
+            .and_then(|e| self.error_limit(e, &format!("{path}.max_error"), full_scale));
         if raw.name.trim().is_empty() {
-            self.problem(&format!("{path}.name"), "the interference source has no name", "name it, e.g. `name: mains hum on the cable`");
+            self.problem(
+                &format!("{path}.name"),
+                "the interference source has no name",
+                "name it, e.g. `name: mains hum on the cable`",
+            );
         }
         Some(Interference {
             name: raw.name.trim().to_string(),
@@ -513,7 +745,12 @@ impl Validator<'_> {
 
     /// An allowed error: a voltage, or a fraction of full scale. The full
     /// scale is resolved later against the requirement.
-    fn error_limit(&mut self, scalar: &Scalar, path: &str, full_scale: Option<f64>) -> Option<ErrorLimit> {
+    fn error_limit(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        full_scale: Option<f64>,
+    ) -> Option<ErrorLimit> {
         if parse_quantity(&scalar.0, Dimension::Fraction).is_ok() {
             let q = self.quantity(scalar, path, Dimension::Fraction, Range::Positive, false)?;
             return Some(ErrorLimit::OfFullScale {
@@ -530,27 +767,55 @@ impl Validator<'_> {
             return None;
         }
         let q = self.quantity(scalar, path, Dimension::Voltage, Range::Positive, false)?;
-        Some(ErrorLimit::Volts(Amplitude { volts: q.value, form: q.form }))
+        Some(ErrorLimit::Volts(Amplitude {
+            volts: q.value,
+            form: q.form,
+        }))
     }
 
     fn requirement(&mut self, raw: &RawRequirement) -> Option<Requirement> {
         let full_scale_volts = raw.full_scale.as_ref().and_then(|f| {
-            let q = self.quantity(f, "requirement.full_scale", Dimension::Voltage, Range::Positive, false)?;
+            let q = self.quantity(
+                f,
+                "requirement.full_scale",
+                Dimension::Voltage,
+                Range::Positive,
+                false,
+            )?;
             if q.form.is_some() {
-                self.problem("requirement.full_scale", "a full scale is the largest differential input, a plain voltage", "write it without rms/pk/pp, e.g. `10 mV`");
+                self.problem(
+                    "requirement.full_scale",
+                    "a full scale is the largest differential input, a plain voltage",
+                    "write it without rms/pk/pp, e.g. `10 mV`",
+                );
                 return None;
             }
             Some(q.value)
         });
-        let max_error = raw.max_error.as_ref().and_then(|e| self.error_limit(e, "requirement.max_error", full_scale_volts));
+        let max_error = raw
+            .max_error
+            .as_ref()
+            .and_then(|e| self.error_limit(e, "requirement.max_error", full_scale_volts));
         let min_cmrr = raw
             .min_cmrr
             .iter()
             .enumerate()
             .filter_map(|(i, point)| {
                 let path = format!("requirement.min_cmrr[{i}]");
-                let at = self.quantity(&point.at, &format!("{path}.at"), Dimension::Frequency, Range::NonNegative, false);
-                let cmrr = self.quantity(&point.cmrr, &format!("{path}.cmrr"), Dimension::Decibels, Range::Positive, false);
+                let at = self.quantity(
+                    &point.at,
+                    &format!("{path}.at"),
+                    Dimension::Frequency,
+                    Range::NonNegative,
+                    false,
+                );
+                let cmrr = self.quantity(
+                    &point.cmrr,
+                    &format!("{path}.cmrr"),
+                    Dimension::Decibels,
+                    Range::Positive,
+                    false,
+                );
                 Some(MinimumCmrr {
                     frequency_hz: at?.value,
                     cmrr_db: 20.0 * cmrr?.value.log10(),
@@ -572,7 +837,12 @@ impl Validator<'_> {
     /// Cross-checks of error limits: a fraction of full scale needs a full
     /// scale, and an unqualified voltage limit cannot apply to an
     /// alternating source.
-    fn check_error_limits(&mut self, raw: &[RawInterference], sources: &[Interference], requirement: Option<&Requirement>) {
+    fn check_error_limits(
+        &mut self,
+        raw: &[RawInterference],
+        sources: &[Interference],
+        requirement: Option<&Requirement>,
+    ) {
         if raw.len() != sources.len() {
             return; // a source already failed validation
         }
@@ -585,12 +855,18 @@ impl Validator<'_> {
         }
         for (i, (raw_source, source)) in raw.iter().zip(sources).enumerate() {
             let own = raw_source.max_error.is_some();
-            let path = if own { format!("interference[{i}].max_error") } else { "requirement.max_error".to_string() };
+            let path = if own {
+                format!("interference[{i}].max_error")
+            } else {
+                "requirement.max_error".to_string()
+            };
             match source.max_error.or(default_limit) {
                 Some(ErrorLimit::OfFullScale { .. }) if own && full_scale.is_none() => {
                     self.problem(&path, "the allowed error is a fraction of full scale, but the requirement gives no full scale", "add `full_scale: …` to the requirement, or give the error in volts");
                 }
-                Some(ErrorLimit::Volts(limit)) if limit.form.is_none() && source.frequency_hz > 0.0 => {
+                Some(ErrorLimit::Volts(limit))
+                    if limit.form.is_none() && source.frequency_hz > 0.0 =>
+                {
                     self.problem(&path, format!("the allowed error has no rms, peak or peak-to-peak form, but `{}` is alternating", source.name), "add the form, e.g. `1 uV rms` or `2 uV pp`");
                 }
                 _ => {}

@@ -11,9 +11,12 @@
 //!   random parts (independent, each at the same confidence) in quadrature;
 //! - nominal: `|ε_nominal|`.
 //!
-//! The chain is also solved with every parameter at once at the extreme it
-//! took alone; what that differs from the nominal plus the sum of the
-//! contributions is the interaction, reported rather than hidden.
+//! The chain is also solved exactly at the corner the worst case assumes:
+//! every parameter at once, the largest first, each at the extreme that
+//! adds most to the running sum (for a real-valued conversion at DC, all
+//! contributions in phase). What the exact corner differs from its linear
+//! prediction (`ε_nominal + Σ Δε_k`) is the interaction, reported rather
+//! than hidden.
 
 use super::chain::{chain_response, EngineError};
 use super::linalg::C64;
@@ -62,8 +65,12 @@ pub struct PointAnalysis {
     pub nominal: C64,
     /// One entry per varying parameter, in parameter order.
     pub contributions: Vec<Contribution>,
-    /// `ε` with every parameter at its worst-case extreme at once.
-    pub all_at_once: C64,
+    /// `ε` solved exactly at the worst-aligned corner: every parameter at
+    /// once, each at the extreme that adds most to the running sum.
+    pub corner: C64,
+    /// The linear prediction at that corner: `ε_nominal + Σ Δε_k` with the
+    /// corner's signs.
+    pub corner_linear: C64,
 }
 
 impl PointAnalysis {
@@ -74,7 +81,12 @@ impl PointAnalysis {
 
     /// Worst case: `|ε_nominal| + Σ |Δε_k|`.
     pub fn worst_case(&self) -> f64 {
-        self.nominal_magnitude() + self.contributions.iter().map(Contribution::magnitude).sum::<f64>()
+        self.nominal_magnitude()
+            + self
+                .contributions
+                .iter()
+                .map(Contribution::magnitude)
+                .sum::<f64>()
     }
 
     /// RSS: `|ε_nominal| + √(Σ |Δε_k|²)`.
@@ -87,15 +99,14 @@ impl PointAnalysis {
         self.nominal_magnitude() + random.sqrt()
     }
 
-    /// `|ε|` with every deviation applied at once, zero below the floor.
-    pub fn all_at_once_magnitude(&self) -> f64 {
-        resolved(self.all_at_once.norm())
+    /// `|ε|` at the worst-aligned corner, zero below the floor.
+    pub fn corner_magnitude(&self) -> f64 {
+        resolved(self.corner.norm())
     }
 
-    /// The interaction: `ε_all − (ε_nominal + Σ Δε_k)`.
+    /// The interaction: the exact corner minus its linear prediction.
     pub fn interaction(&self) -> C64 {
-        let linear: C64 = self.nominal + self.contributions.iter().map(|c| c.deviation).sum::<C64>();
-        self.all_at_once - linear
+        self.corner - self.corner_linear
     }
 
     /// The magnitude of the interaction, zero below the floor.
@@ -109,37 +120,71 @@ pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, Eng
     let mut values = budget.parameters.nominal_values();
     let nominal_response = chain_response(&budget.chain, &Point::new(freq_hz, &values))?;
     let nominal = nominal_response.conversion();
-    let mut contributions = Vec::new();
+    // Each varying parameter at each of its extremes, alone.
+    let mut swings: Vec<(ParamId, [(f64, C64); 2])> = Vec::new();
     for (id, parameter) in budget.parameters.iter() {
         let Some(extremes) = parameter.extremes() else {
             continue;
         };
-        let mut worst: Option<(f64, C64)> = None;
-        for extreme in extremes {
+        let mut deviations = [(0.0, C64::new(0.0, 0.0)); 2];
+        for (slot, extreme) in deviations.iter_mut().zip(extremes) {
             values[id.0] = extreme;
-            let conversion = chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
-            if worst.is_none_or(|(_, best)| conversion.norm() > best.norm()) {
-                worst = Some((extreme, conversion));
-            }
+            let conversion =
+                chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
+            *slot = (extreme, conversion - nominal);
         }
         values[id.0] = parameter.nominal;
-        if let Some((value, conversion)) = worst {
-            contributions.push(Contribution {
-                param: id,
+        swings.push((id, deviations));
+    }
+    // A contribution is the larger of the two swings.
+    let contributions: Vec<Contribution> = swings
+        .iter()
+        .map(|(id, [low, high])| {
+            let (value, deviation) = if high.1.norm() >= low.1.norm() {
+                *high
+            } else {
+                *low
+            };
+            Contribution {
+                param: *id,
                 value,
-                deviation: conversion - nominal,
-            });
-        }
+                deviation,
+            }
+        })
+        .collect();
+    // The corner the worst case assumes: largest swings first, each at the
+    // extreme that adds most to the running sum, then solved exactly.
+    let mut order: Vec<usize> = (0..swings.len()).collect();
+    order.sort_by(|&a, &b| {
+        contributions[b]
+            .deviation
+            .norm()
+            .total_cmp(&contributions[a].deviation.norm())
+    });
+    let mut running = nominal;
+    let mut corner_contributions = contributions.clone();
+    for index in order {
+        let (id, [low, high]) = swings[index];
+        let (value, deviation) = if (running + high.1).norm() >= (running + low.1).norm() {
+            high
+        } else {
+            low
+        };
+        running += deviation;
+        values[id.0] = value;
+        corner_contributions[index] = Contribution {
+            param: id,
+            value,
+            deviation,
+        };
     }
-    for contribution in &contributions {
-        values[contribution.param.0] = contribution.value;
-    }
-    let all_at_once = chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
+    let corner = chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
     Ok(PointAnalysis {
         freq_hz,
         differential_gain: nominal_response.dd,
         nominal,
         contributions,
-        all_at_once,
+        corner,
+        corner_linear: running,
     })
 }

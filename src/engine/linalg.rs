@@ -38,7 +38,10 @@ impl Mat2 {
 
     /// Whether every entry is finite.
     pub fn is_finite(&self) -> bool {
-        self.0.iter().flatten().all(|z| z.re.is_finite() && z.im.is_finite())
+        self.0
+            .iter()
+            .flatten()
+            .all(|z| z.re.is_finite() && z.im.is_finite())
     }
 }
 
@@ -202,13 +205,16 @@ impl NodalSystem {
         }
         let mut solution = [[ZERO; 2]; MAX_NODES];
         for row in (0..n).rev() {
-            for input in 0..2 {
-                let mut sum = self.rhs[row][input];
-                for k in row + 1..n {
-                    sum -= self.matrix[row][k] * solution[k][input];
-                }
-                solution[row][input] = sum / self.matrix[row][row];
+            let mut sums = self.rhs[row];
+            for (coefficient, known) in self.matrix[row][row + 1..n]
+                .iter()
+                .zip(&solution[row + 1..n])
+            {
+                sums[0] -= coefficient * known[0];
+                sums[1] -= coefficient * known[1];
             }
+            let pivot = self.matrix[row][row];
+            solution[row] = [sums[0] / pivot, sums[1] / pivot];
         }
         let finite = solution[..n]
             .iter()

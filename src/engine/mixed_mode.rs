@@ -61,7 +61,12 @@ mod tests {
         let t_inv = Mat2::new(C64::new(0.5, 0.0), ONE, C64::new(-0.5, 0.0), ONE);
         let m = t * n * t_inv;
         let mm = MixedMode::from_nodes(&n);
-        for (got, want) in [(mm.dd, m.0[0][0]), (mm.dc, m.0[0][1]), (mm.cd, m.0[1][0]), (mm.cc, m.0[1][1])] {
+        for (got, want) in [
+            (mm.dd, m.0[0][0]),
+            (mm.dc, m.0[0][1]),
+            (mm.cd, m.0[1][0]),
+            (mm.cc, m.0[1][1]),
+        ] {
             assert!((got - want).norm() < 1e-14);
         }
     }

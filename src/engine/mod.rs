@@ -2,9 +2,9 @@
 //! node-voltage response into a mixed-mode one, and split the CM-to-DM
 //! conversion into contributions.
 
-pub mod linalg;
 mod chain;
 mod contributions;
+pub mod linalg;
 mod mixed_mode;
 
 pub use chain::{chain_response, EngineError};

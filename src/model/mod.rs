@@ -5,6 +5,7 @@ mod budget;
 mod params;
 
 pub use budget::{
-    Amplitude, Budget, ErrorLimit, Interference, Judgement, MinimumCmrr, Requirement, Safety,
+    describe_volts, Amplitude, Budget, ErrorLimit, Interference, Judgement, MinimumCmrr,
+    Requirement, Safety,
 };
 pub use params::{ParamId, Parameter, Parameters, Presentation, Variation};

@@ -54,7 +54,9 @@ impl Dimension {
             Dimension::Length => "a length (m, e.g. `5 m`, `300 mm`)",
             Dimension::CapacitancePerLength => "a capacitance per length (F/m, e.g. `100 pF/m`)",
             Dimension::Fraction => "a fraction (% or ppm, e.g. `0.1 %`, `50 ppm`)",
-            Dimension::TemperatureCoefficient => "a temperature coefficient (ppm/K, e.g. `5 ppm/K`)",
+            Dimension::TemperatureCoefficient => {
+                "a temperature coefficient (ppm/K, e.g. `5 ppm/K`)"
+            }
             Dimension::Decibels => "a ratio in decibels (dB, e.g. `110 dB`)",
             Dimension::Gain => "a gain (dB or V/V, e.g. `120 dB`, `1M`)",
         }

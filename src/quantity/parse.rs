@@ -35,6 +35,15 @@ impl AmplitudeForm {
         }
     }
 
+    /// The name used in JSON and CSV: `rms`, `peak`, `peak_to_peak`.
+    pub fn name(self) -> &'static str {
+        match self {
+            AmplitudeForm::Rms => "rms",
+            AmplitudeForm::Peak => "peak",
+            AmplitudeForm::PeakToPeak => "peak_to_peak",
+        }
+    }
+
     /// The suffix printed after a voltage in this form.
     pub fn suffix(self) -> &'static str {
         match self {
@@ -180,9 +189,8 @@ fn split_tolerance(text: &str) -> Result<(&str, Option<f64>), QuantityError> {
     if tolerance_text.is_empty() {
         return Err(bad("nothing follows `±`; write e.g. `±0.1 %` or `±50 ppm`"));
     }
-    let parsed = parse_value(tolerance_text, tolerance_text, Dimension::Fraction).map_err(|_| {
-        bad("write it as a percentage or ppm, e.g. `±0.1 %` or `±50 ppm`")
-    })?;
+    let parsed = parse_value(tolerance_text, tolerance_text, Dimension::Fraction)
+        .map_err(|_| bad("write it as a percentage or ppm, e.g. `±0.1 %` or `±50 ppm`"))?;
     if parsed.value < 0.0 {
         return Err(bad("a tolerance is a magnitude; drop the sign after `±`"));
     }
@@ -484,8 +492,16 @@ mod tests {
     #[test]
     fn decibels_are_twenty_log_ten() {
         // A voltage ratio: 20 dB is 10x, 100 dB is 1e5 (20 log10, never 10 log10).
-        assert_relative_eq!(value("20 dB", Dimension::Decibels), 10.0, max_relative = 1e-12);
-        assert_relative_eq!(value("100 dB", Dimension::Decibels), 1e5, max_relative = 1e-12);
+        assert_relative_eq!(
+            value("20 dB", Dimension::Decibels),
+            10.0,
+            max_relative = 1e-12
+        );
+        assert_relative_eq!(
+            value("100 dB", Dimension::Decibels),
+            1e5,
+            max_relative = 1e-12
+        );
         assert_relative_eq!(value("120 dB", Dimension::Gain), 1e6, max_relative = 1e-12);
         assert_relative_eq!(value("1M", Dimension::Gain), 1e6);
         assert_relative_eq!(value("200k V/V", Dimension::Gain), 2e5);
@@ -505,7 +521,12 @@ mod tests {
 
     #[test]
     fn tolerances_in_both_spellings() {
-        for text in ["10k ±0.1 %", "10k +-0.1%", "10k +/- 0.1 %", "10 kΩ ±1000 ppm"] {
+        for text in [
+            "10k ±0.1 %",
+            "10k +-0.1%",
+            "10k +/- 0.1 %",
+            "10 kΩ ±1000 ppm",
+        ] {
             let q = parse_quantity(text, Dimension::Resistance).unwrap();
             assert_relative_eq!(q.value, 10e3);
             assert_relative_eq!(q.tolerance.unwrap(), 1e-3, max_relative = 1e-12);

@@ -30,12 +30,10 @@ pub struct OpAmp {
 impl OpAmp {
     /// `1 / A(jf)`: zero for an ideal amplifier.
     pub fn inverse_gain(&self, point: &Point) -> C64 {
-        let dc = self
-            .open_loop_gain
-            .map_or(0.0, |id| 1.0 / point.value(id));
-        let pole = self.gain_bandwidth_hz.map_or(ZERO, |id| {
-            C64::new(0.0, point.freq_hz / point.value(id))
-        });
+        let dc = self.open_loop_gain.map_or(0.0, |id| 1.0 / point.value(id));
+        let pole = self
+            .gain_bandwidth_hz
+            .map_or(ZERO, |id| C64::new(0.0, point.freq_hz / point.value(id)));
         C64::new(dc, 0.0) + pole
     }
 
@@ -69,7 +67,11 @@ mod tests {
             ..OpAmp::default()
         };
         let at_pole = opamp.inverse_gain(&Point::new(10.0, &values));
-        assert_relative_eq!(1.0 / at_pole.norm(), 1e5 / 2f64.sqrt(), max_relative = 1e-12);
+        assert_relative_eq!(
+            1.0 / at_pole.norm(),
+            1e5 / 2f64.sqrt(),
+            max_relative = 1e-12
+        );
         let at_1k = opamp.inverse_gain(&Point::new(1e3, &values));
         assert_relative_eq!(1.0 / at_1k.norm(), 1e3, max_relative = 1e-4);
     }

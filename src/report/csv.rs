@@ -1,0 +1,147 @@
+//! The CSV report: one row per contributor and per total, for every
+//! interference source and every further frequency. Units are in the
+//! headers; an infinite CMRR is written `inf`.
+
+use super::{ContributionRow, Db, Report, Totals};
+
+const HEADER: &str = "source,frequency_hz,amplitude_v,amplitude_form,row,contributor,stage,value,kind,cmrr_db,error_rti_v,error_rto_v,share";
+
+/// The report as CSV, header first.
+pub fn render_csv(report: &Report) -> String {
+    let mut out = String::from(HEADER);
+    out.push('\n');
+    for result in &report.results {
+        let lead = [
+            result.source.clone(),
+            number(result.frequency_hz),
+            number(result.amplitude_v),
+            result
+                .amplitude_form
+                .map_or_else(|| "dc".to_string(), |f| f.name().to_string()),
+        ];
+        write_rows(
+            &mut out,
+            &lead,
+            &result.contributions,
+            &result.cmrr_db,
+            Some((&result.error_rti_v, &result.error_rto_v)),
+            result.differential_gain,
+        );
+    }
+    for frequency in &report.frequencies {
+        let lead = [
+            String::new(),
+            number(frequency.frequency_hz),
+            String::new(),
+            String::new(),
+        ];
+        write_rows(
+            &mut out,
+            &lead,
+            &frequency.contributions,
+            &frequency.cmrr_db,
+            None,
+            frequency.differential_gain,
+        );
+    }
+    out
+}
+
+fn write_rows(
+    out: &mut String,
+    lead: &[String; 4],
+    contributions: &[ContributionRow],
+    cmrr: &Totals<Db>,
+    errors: Option<(&Totals<f64>, &Totals<f64>)>,
+    gain: f64,
+) {
+    for row in contributions {
+        let rto = row.error_rti_v.map(|e| e * gain);
+        let fields = [
+            "contribution".to_string(),
+            row.name.clone(),
+            row.stage.clone(),
+            row.value.clone(),
+            row.kind.name().to_string(),
+            db(row.cmrr_db),
+            row.error_rti_v.map(number).unwrap_or_default(),
+            rto.map(number).unwrap_or_default(),
+            number(row.share),
+        ];
+        push_line(out, lead, &fields);
+    }
+    let totals = [
+        (
+            "worst case",
+            cmrr.worst_case,
+            errors.map(|(rti, rto)| (rti.worst_case, rto.worst_case)),
+        ),
+        ("rss", cmrr.rss, errors.map(|(rti, rto)| (rti.rss, rto.rss))),
+        (
+            "nominal",
+            cmrr.nominal,
+            errors.map(|(rti, rto)| (rti.nominal, rto.nominal)),
+        ),
+    ];
+    for (name, cmrr_db, error) in totals {
+        let fields = [
+            "total".to_string(),
+            name.to_string(),
+            String::new(),
+            String::new(),
+            String::new(),
+            db(cmrr_db),
+            error.map(|e| number(e.0)).unwrap_or_default(),
+            error.map(|e| number(e.1)).unwrap_or_default(),
+            String::new(),
+        ];
+        push_line(out, lead, &fields);
+    }
+}
+
+fn push_line(out: &mut String, lead: &[String; 4], fields: &[String; 9]) {
+    let line: Vec<String> = lead
+        .iter()
+        .chain(fields.iter())
+        .map(|f| escape(f))
+        .collect();
+    out.push_str(&line.join(","));
+    out.push('\n');
+}
+
+fn number(value: f64) -> String {
+    format!("{value:e}")
+}
+
+fn db(value: Db) -> String {
+    if value.0.is_infinite() {
+        if value.0 > 0.0 {
+            "inf".into()
+        } else {
+            "-inf".into()
+        }
+    } else {
+        format!("{:.6}", value.0)
+    }
+}
+
+/// Quote a field when it holds a comma, a quote or a line break.
+fn escape(field: &str) -> String {
+    if field.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", field.replace('"', "\"\""))
+    } else {
+        field.to_string()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn escapes_fields() {
+        assert_eq!(escape("plain"), "plain");
+        assert_eq!(escape("a, b"), "\"a, b\"");
+        assert_eq!(escape("say \"hi\""), "\"say \"\"hi\"\"\"");
+    }
+}

@@ -1,0 +1,201 @@
+//! The terminal report: per interference source, a contribution table and
+//! a totals table, then the requirement and the verdict.
+
+use super::{ContributionRow, Db, FrequencyResult, Report, RequirementOutcome, SourceResult};
+use crate::model::{describe_volts, Judgement};
+use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
+use tabled::builder::Builder;
+use tabled::settings::object::Columns;
+use tabled::settings::{Alignment, Style};
+
+/// The report as text for a terminal.
+pub fn render_table(report: &Report) -> String {
+    let mut out = String::new();
+    out.push_str(&format!("CMRR budget: {}\n", report.budget));
+    for caution in &report.cautions {
+        out.push_str(&format!("\n{caution}\n"));
+    }
+    for remark in &report.remarks {
+        out.push_str(&format!("note: {remark}\n"));
+    }
+    for result in &report.results {
+        out.push('\n');
+        out.push_str(&source_section(result));
+    }
+    for frequency in &report.frequencies {
+        out.push('\n');
+        out.push_str(&frequency_section(frequency));
+    }
+    out.push('\n');
+    out.push_str(&verdict_line(report));
+    out
+}
+
+fn source_section(result: &SourceResult) -> String {
+    let form = result.amplitude_form;
+    let mut out = format!(
+        "{}: {} common mode at {}\n",
+        result.source,
+        describe_volts(result.amplitude_v, form),
+        frequency_text(result.frequency_hz),
+    );
+    out.push_str(&gain_line(result.differential_gain));
+    out.push_str(&contribution_table(&result.contributions, form));
+    out.push('\n');
+    let mut totals = Builder::default();
+    let mut header = vec!["total", "CMRR", "error RTI", "error RTO"];
+    if result.error_fs_ppm.is_some() {
+        header.push("error of full scale");
+    }
+    totals.push_record(header);
+    for judgement in TOTALS {
+        let mut row = vec![
+            judgement.label().to_string(),
+            format_db(result.cmrr_db.judged(judgement).0),
+            describe_volts(result.error_rti_v.judged(judgement), form),
+            describe_volts(result.error_rto_v.judged(judgement), form),
+        ];
+        if let Some(ppm) = &result.error_fs_ppm {
+            row.push(format_fraction(ppm.judged(judgement) * 1e-6));
+        }
+        totals.push_record(row);
+    }
+    out.push_str(&styled(totals, 1));
+    out.push('\n');
+    out.push_str(&corner_line(
+        result.corner.cmrr_db,
+        result.corner.interaction_share,
+    ));
+    if let Some(outcome) = &result.requirement {
+        out.push_str(&requirement_lines(outcome));
+    }
+    out
+}
+
+fn frequency_section(result: &FrequencyResult) -> String {
+    let mut out = format!(
+        "at {} (no interference source here)\n",
+        frequency_text(result.frequency_hz)
+    );
+    out.push_str(&gain_line(result.differential_gain));
+    out.push_str(&contribution_table(&result.contributions, None));
+    out.push('\n');
+    let mut totals = Builder::default();
+    totals.push_record(["total", "CMRR"]);
+    for judgement in TOTALS {
+        totals.push_record([
+            judgement.label().to_string(),
+            format_db(result.cmrr_db.judged(judgement).0),
+        ]);
+    }
+    out.push_str(&styled(totals, 1));
+    out.push('\n');
+    out.push_str(&corner_line(
+        result.corner.cmrr_db,
+        result.corner.interaction_share,
+    ));
+    if let Some(outcome) = &result.requirement {
+        out.push_str(&requirement_lines(outcome));
+    }
+    out
+}
+
+/// The totals, in the order they are printed.
+const TOTALS: [Judgement; 3] = [Judgement::WorstCase, Judgement::Rss, Judgement::Nominal];
+
+fn frequency_text(freq_hz: f64) -> String {
+    if freq_hz == 0.0 {
+        "DC (0 Hz)".to_string()
+    } else {
+        format_si(freq_hz, "Hz")
+    }
+}
+
+fn gain_line(gain: f64) -> String {
+    format!(
+        "chain differential gain {} ({})\n",
+        format_si(gain, "V/V"),
+        format_db(20.0 * gain.log10())
+    )
+}
+
+fn contribution_table(rows: &[ContributionRow], form: Option<AmplitudeForm>) -> String {
+    let mut table = Builder::default();
+    let with_error = rows.iter().any(|r| r.error_rti_v.is_some());
+    let mut header = vec!["contributor", "stage", "value", "CMRR alone"];
+    if with_error {
+        header.push("error RTI");
+    }
+    header.push("share");
+    table.push_record(header);
+    for row in rows {
+        let mut record = vec![
+            row.name.clone(),
+            row.stage.clone(),
+            row.value.clone(),
+            format_db(row.cmrr_db.0),
+        ];
+        if with_error {
+            record.push(
+                row.error_rti_v
+                    .map(|e| describe_volts(e, form))
+                    .unwrap_or_default(),
+            );
+        }
+        record.push(format!("{:.1} %", row.share * 100.0));
+        table.push_record(record);
+    }
+    if rows.is_empty() {
+        return "no contributor varies: every part is taken as exact\n".to_string();
+    }
+    styled(table, 3)
+}
+
+fn styled(builder: Builder, first_numeric_column: usize) -> String {
+    let mut table = builder.build();
+    table
+        .with(Style::rounded())
+        .modify(Columns::new(first_numeric_column..), Alignment::right());
+    table.to_string()
+}
+
+fn corner_line(cmrr: Db, interaction_share: f64) -> String {
+    format!(
+        "exact solve at the worst-case corner: CMRR {}; interaction {:.2} % of the worst case\n",
+        format_db(cmrr.0),
+        interaction_share * 100.0
+    )
+}
+
+fn requirement_lines(outcome: &RequirementOutcome) -> String {
+    let mut out = format!(
+        "requirement (judged on {}): {}, margin {}\n",
+        outcome.judged_on.label(),
+        if outcome.met { "met" } else { "MISSED" },
+        format_db(outcome.margin_db.0)
+    );
+    for check in &outcome.checks {
+        out.push_str(&format!(
+            "  {}: {} ({} by {})\n",
+            check.limit,
+            check.achieved,
+            if check.met { "met" } else { "MISSED" },
+            format_db(check.margin_db.0.abs())
+        ));
+    }
+    out
+}
+
+fn verdict_line(report: &Report) -> String {
+    match (report.verdict.met, report.verdict.margin_db) {
+        (Some(true), Some(margin)) => format!(
+            "verdict: requirement met; smallest margin {}\n",
+            format_db(margin.0)
+        ),
+        (Some(false), Some(margin)) => format!(
+            "verdict: requirement MISSED; worst shortfall {}\n",
+            format_db(-margin.0)
+        ),
+        _ => "verdict: no requirement stated\n".to_string(),
+    }
+}
