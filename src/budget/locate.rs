@@ -96,8 +96,11 @@ impl SourceMap {
             if let Some(position) = self.positions.get(current) {
                 return Some(*position);
             }
-            let cut = current.rfind(['.', '['])?;
-            current = &current[..cut];
+            current = match current.rfind(['.', '[']) {
+                Some(cut) => &current[..cut],
+                None if !current.is_empty() => "",
+                None => return None,
+            };
         }
     }
 }

@@ -87,6 +87,9 @@ fn suggest_fix(message: &str) -> Option<String> {
         let name = rest.trim_matches('`');
         return Some(format!("add `{name}: …` here"));
     }
+    if message.contains("while scanning") || message.contains("while parsing") {
+        return Some("this is not valid YAML: check quotes, brackets and indentation (spaces only, no tabs) on this line and the one before".into());
+    }
     if message.contains("invalid type") {
         return Some("check the indentation and the kind of value: a map (`key: value` lines), a list (`- item` lines) or a single value".into());
     }

@@ -177,11 +177,7 @@ impl<'de> Visitor<'de> for ScalarVisitor {
     }
 
     fn visit_f64<E: de::Error>(self, v: f64) -> Result<Scalar, E> {
-        if v.is_finite() {
-            Ok(Scalar(format!("{v:e}")))
-        } else {
-            Ok(Scalar(format!("{v}")))
-        }
+        Ok(Scalar(format!("{v}")))
     }
 }
 

@@ -78,7 +78,7 @@ impl Validator<'_> {
                 self.problem(
                     path,
                     error.to_string(),
-                    format!("write {}", dimension.describe()),
+                    error.fix(),
                 );
                 return None;
             }

@@ -157,6 +157,25 @@ pub enum QuantityError {
     },
 }
 
+impl QuantityError {
+    /// What would be right, for the message's "fix" line.
+    pub fn fix(&self) -> String {
+        match self {
+            QuantityError::BadTolerance { .. } => {
+                "write the tolerance as a percentage or ppm below 100 %, e.g. `±0.1 %` or `±50 ppm`".to_string()
+            }
+            QuantityError::FormNotVoltage { .. } => "remove rms/pk/pp: only voltages take them".to_string(),
+            QuantityError::Empty { expected }
+            | QuantityError::NoNumber { expected, .. }
+            | QuantityError::NotFinite { expected, .. }
+            | QuantityError::UnknownUnit { expected, .. }
+            | QuantityError::WrongDimension { expected, .. }
+            | QuantityError::MissingUnit { expected, .. }
+            | QuantityError::TrailingText { expected, .. } => format!("write {}", expected.describe()),
+        }
+    }
+}
+
 /// Parse `text` as a quantity of dimension `expected`.
 ///
 /// A tolerance (`±0.1 %`) and an amplitude form (`rms`) are returned when
@@ -211,6 +230,13 @@ fn parse_value(text: &str, whole: &str, expected: Dimension) -> Result<Quantity,
             form: None,
             tolerance: None,
             in_decibels: false,
+        });
+    }
+    let lowered = text.trim_start_matches(['+', '-', '.']).to_ascii_lowercase();
+    if ["inf", "infinity", "nan"].iter().any(|word| lowered.starts_with(word)) {
+        return Err(QuantityError::NotFinite {
+            text: whole.to_string(),
+            expected,
         });
     }
     let (number, rest) = scan_number(text).ok_or_else(|| QuantityError::NoNumber {
