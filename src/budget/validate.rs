@@ -75,11 +75,7 @@ impl Validator<'_> {
         let quantity = match parse_quantity(&scalar.0, dimension) {
             Ok(q) => q,
             Err(error) => {
-                self.problem(
-                    path,
-                    error.to_string(),
-                    error.fix(),
-                );
+                self.problem(path, error.to_string(), error.fix());
                 return None;
             }
         };

@@ -162,16 +162,21 @@ impl QuantityError {
     pub fn fix(&self) -> String {
         match self {
             QuantityError::BadTolerance { .. } => {
-                "write the tolerance as a percentage or ppm below 100 %, e.g. `±0.1 %` or `±50 ppm`".to_string()
+                "write the tolerance as a percentage or ppm below 100 %, e.g. `±0.1 %` or `±50 ppm`"
+                    .to_string()
             }
-            QuantityError::FormNotVoltage { .. } => "remove rms/pk/pp: only voltages take them".to_string(),
+            QuantityError::FormNotVoltage { .. } => {
+                "remove rms/pk/pp: only voltages take them".to_string()
+            }
             QuantityError::Empty { expected }
             | QuantityError::NoNumber { expected, .. }
             | QuantityError::NotFinite { expected, .. }
             | QuantityError::UnknownUnit { expected, .. }
             | QuantityError::WrongDimension { expected, .. }
             | QuantityError::MissingUnit { expected, .. }
-            | QuantityError::TrailingText { expected, .. } => format!("write {}", expected.describe()),
+            | QuantityError::TrailingText { expected, .. } => {
+                format!("write {}", expected.describe())
+            }
         }
     }
 }
@@ -232,8 +237,13 @@ fn parse_value(text: &str, whole: &str, expected: Dimension) -> Result<Quantity,
             in_decibels: false,
         });
     }
-    let lowered = text.trim_start_matches(['+', '-', '.']).to_ascii_lowercase();
-    if ["inf", "infinity", "nan"].iter().any(|word| lowered.starts_with(word)) {
+    let lowered = text
+        .trim_start_matches(['+', '-', '.'])
+        .to_ascii_lowercase();
+    if ["inf", "infinity", "nan"]
+        .iter()
+        .any(|word| lowered.starts_with(word))
+    {
         return Err(QuantityError::NotFinite {
             text: whole.to_string(),
             expected,

@@ -1,0 +1,249 @@
+//! The engine checked against published formulas and worked examples, each
+//! in its range of validity. The source is named beside every check.
+
+use approx::assert_relative_eq;
+use cmrr_budget::budget::parse_budget;
+use cmrr_budget::engine::{analyse_point, chain_response, PointAnalysis};
+use cmrr_budget::model::Budget;
+use cmrr_budget::stage::{Point, StageSolve};
+use std::f64::consts::PI;
+
+fn budget(chain: &str) -> Budget {
+    let text = format!(
+        "name: check\nchain:\n{chain}\ninterference:\n  - {{name: hum, amplitude: 1 V rms, frequency: 50 Hz}}\n"
+    );
+    parse_budget(&text, "check.yaml").unwrap_or_else(|e| panic!("{e}\n{text}"))
+}
+
+fn difference_amp(r1: &str, r2: &str, r3: &str, r4: &str, opamp: &str) -> String {
+    format!("  - difference_amp:\n      r1: {r1}\n      r2: {r2}\n      r3: {r3}\n      r4: {r4}\n{opamp}")
+}
+
+fn at(budget: &Budget, freq: f64) -> PointAnalysis {
+    analyse_point(budget, freq).expect("the chain solves")
+}
+
+fn db(ratio: f64) -> f64 {
+    20.0 * ratio.log10()
+}
+
+/// Sedra and Smith, Microelectronic Circuits, 7th ed., 2015, Sec. 2.4,
+/// Exercise 2.15: R1 = R3 = 2 kΩ, R2 = R4 = 200 kΩ. Answers given there:
+/// Ad = 100 V/V (40 dB); Rid = 4 kΩ; with 1 % resistors the worst-case
+/// Acm = 0.04 V/V and CMRR = 68 dB (rounded, from the book's Eq. 2.19).
+#[test]
+fn sedra_smith_exercise_2_15() {
+    let b = budget(&difference_amp(
+        "2k ±1 %",
+        "200k ±1 %",
+        "2k ±1 %",
+        "200k ±1 %",
+        "",
+    ));
+    let analysis = at(&b, 0.0);
+    assert_relative_eq!(
+        analysis.differential_gain.norm(),
+        100.0,
+        max_relative = 1e-12
+    );
+    let worst_acm = analysis.worst_case() * analysis.differential_gain.norm();
+    assert_relative_eq!(worst_acm, 0.04, max_relative = 0.02);
+    assert!((db(1.0 / analysis.worst_case()) - 68.0).abs() < 0.5);
+
+    // Rid: a floating differential source between the inputs draws the
+    // same current out of p as it returns into n.
+    let values = b.parameters.nominal_values();
+    let point = Point::new(0.0, &values);
+    let y = b.chain[0].kind.input_admittance(&point);
+    // i_p + i_n = 0 with v_p - v_n = 1: solve for v_p.
+    let (a, c, d) = (y.0[0][0], y.0[1][0], y.0[1][1]);
+    let v_p = d / (a + c + d);
+    let i_p = a * v_p;
+    assert_relative_eq!((1.0 / i_p).re, 4e3, max_relative = 1e-9);
+}
+
+/// Worst case of four resistors each within ±t: CMRR ≈ (1 + G)/(4t).
+/// Pallas-Areny and Webster, "Common mode rejection ratio in differential
+/// amplifiers", IEEE Trans. Instrum. Meas. 40(4), 669-676, 1991 (the
+/// tolerance-limited CMRR; equation number from memory). Valid for t << 1.
+#[test]
+fn four_resistor_worst_case() {
+    for (gain, tolerance) in [(1.0, 1e-3), (10.0, 1e-4), (100.0, 1e-3), (0.5, 5e-4)] {
+        let r1 = 10e3;
+        let r2 = gain * r1;
+        let t = format!("±{} %", tolerance * 100.0);
+        let b = budget(&difference_amp(
+            &format!("{r1} {t}"),
+            &format!("{r2} {t}"),
+            &format!("{r1} {t}"),
+            &format!("{r2} {t}"),
+            "",
+        ));
+        let analysis = at(&b, 0.0);
+        let expected = (1.0 + gain) / (4.0 * tolerance);
+        assert_relative_eq!(
+            1.0 / analysis.worst_case(),
+            expected,
+            max_relative = 5.0 * tolerance
+        );
+        // The nominal chain is perfectly matched: infinite CMRR.
+        assert_eq!(analysis.nominal_magnitude(), 0.0);
+        // RSS of four equal independent contributions is half the sum.
+        assert_relative_eq!(
+            analysis.rss(),
+            analysis.worst_case() / 2.0,
+            max_relative = 5.0 * tolerance
+        );
+    }
+}
+
+/// The exact common-mode gain of the four-resistor stage with an ideal
+/// op-amp, Acm = (R1 R4 − R2 R3) / (R1 (R3 + R4)).
+/// Pallas-Areny and Webster 1991 (as above); also Sedra and Smith, 7th ed.,
+/// 2015, Sec. 2.4 (equation number from memory).
+#[test]
+fn exact_common_mode_gain() {
+    let cases = [
+        (10e3, 100e3, 10.01e3, 99.95e3),
+        (1e3, 1e3, 1.002e3, 0.997e3),
+        (2.2e3, 47e3, 2.21e3, 47.3e3),
+    ];
+    for (r1, r2, r3, r4) in cases {
+        let b = budget(&difference_amp(
+            &r1.to_string(),
+            &r2.to_string(),
+            &r3.to_string(),
+            &r4.to_string(),
+            "",
+        ));
+        let values = b.parameters.nominal_values();
+        let response = chain_response(&b.chain, &Point::new(0.0, &values)).unwrap();
+        let expected = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4));
+        assert_relative_eq!(response.dc.re, expected, max_relative = 1e-9);
+        // Ad for mismatched ratios: (R2/R1 + R4/(R3+R4) (1 + R2/R1)) / 2,
+        // the average of the two input gains (same sources).
+        let expected_dm = (r2 / r1 + r4 / (r3 + r4) * (1.0 + r2 / r1)) / 2.0;
+        assert_relative_eq!(response.dd.re, expected_dm, max_relative = 1e-9);
+    }
+}
+
+/// The op-amp's own CMRR adds to the resistors' as
+/// 1/CMRR_total ≈ 1/CMRR_R + 1/CMRR_op (unknown signs: worst case adds
+/// magnitudes). Pallas-Areny and Webster 1991 (as above).
+#[test]
+fn opamp_cmrr_adds_to_resistor_cmrr() {
+    let opamp = "      opamp:\n        cmrr: 90 dB\n";
+    let b = budget(&difference_amp(
+        "10k ±0.05 %",
+        "100k ±0.05 %",
+        "10k ±0.05 %",
+        "100k ±0.05 %",
+        opamp,
+    ));
+    let analysis = at(&b, 0.0);
+    let cmrr_resistors = 11.0 / (4.0 * 5e-4);
+    let cmrr_opamp = 10f64.powf(90.0 / 20.0);
+    let expected = 1.0 / cmrr_resistors + 1.0 / cmrr_opamp;
+    assert_relative_eq!(analysis.worst_case(), expected, max_relative = 3e-3);
+    // Alone, the op-amp term is referred to the input unchanged.
+    let opamp_share = analysis
+        .contributions
+        .iter()
+        .find(|c| b.parameters.get(c.param).name == "op-amp CMRR")
+        .unwrap();
+    assert_relative_eq!(
+        opamp_share.magnitude(),
+        1.0 / cmrr_opamp,
+        max_relative = 1e-3
+    );
+}
+
+/// Above the op-amp's CMRR corner its contribution falls 20 dB/decade
+/// (single-pole CMRR roll-off; common practice, no source).
+#[test]
+fn opamp_cmrr_corner_slope() {
+    let opamp = "      opamp:\n        cmrr: 100 dB\n        cmrr_corner: 100 Hz\n";
+    let b = budget(&difference_amp("10k", "10k", "10k", "10k", opamp));
+    let low = at(&b, 10e3).worst_case();
+    let high = at(&b, 100e3).worst_case();
+    assert!((db(high / low) - 20.0).abs() < 0.01, "{}", db(high / low));
+}
+
+/// Source-impedance imbalance against the common-mode input impedance:
+/// CMRR ≈ |Zc / ΔZs| for Zs << Zc, falling 20 dB/decade once a capacitance
+/// sets Zc. Huhta and Webster, "60-Hz interference in electrocardiography",
+/// IEEE Trans. Biomed. Eng. 20(2), 91-101, 1973 (the potential-divider
+/// model of source imbalance).
+#[test]
+fn source_imbalance_against_input_capacitance() {
+    let chain = format!(
+        "  - source:\n      resistance: {{p: 51k, n: 61k}}\n      input_capacitance: 200p\n{}",
+        difference_amp("100M", "100M", "100M", "100M", "")
+    );
+    let b = budget(&chain);
+    let s = |freq: f64| num_complex::Complex64::new(0.0, 2.0 * PI * freq);
+    for freq in [50.0, 500.0, 5e3, 50e3] {
+        // Exact divider form, the difference stage's 200 MΩ inputs included
+        // in Zc; divided by the differential gain to refer it to the input.
+        let zc = 1.0 / (s(freq) * 200e-12 + 1.0 / 200e6);
+        let (p, n) = (zc / (zc + 51e3), zc / (zc + 61e3));
+        let exact = ((p - n) / ((p + n) / 2.0)).norm();
+        assert_relative_eq!(at(&b, freq).nominal_magnitude(), exact, max_relative = 1e-6);
+    }
+    for freq in [50.0, 500.0] {
+        // The approximation, within its first-order error 2 Zs/Zc.
+        let zc = 1.0 / (2.0 * PI * freq * 200e-12);
+        let approximate = zc / 10e3;
+        let error = 2.0 * 61e3 / zc;
+        assert_relative_eq!(
+            1.0 / at(&b, freq).nominal_magnitude(),
+            approximate,
+            max_relative = error
+        );
+    }
+    let slope = db(at(&b, 500.0).nominal_magnitude() / at(&b, 50.0).nominal_magnitude());
+    assert!((slope - 20.0).abs() < 0.1, "{slope}");
+}
+
+/// The AAMI/IEC ECG common-mode test network: 51 kΩ ∥ 47 nF in series with
+/// one lead (AAMI TIR60 describes the test; IEC 60601-2-25/-2-27 versions
+/// from memory). With a common-mode input impedance Zcm per input, the
+/// converted differential voltage is ≈ Vcm · Zimb / (Zimb + Zcm).
+/// Spinelli and Mayosky, IEEE Trans. Biomed. Eng. 52(8), 2005 (the
+/// imbalance-divider result).
+#[test]
+fn ecg_test_imbalance() {
+    let chain = format!(
+        "  - source:\n      resistance: {{p: 51k, n: 1m}}\n      capacitance: {{p: 47n, n: 1p}}\n      input_resistance: 100M\n      input_capacitance: 10p\n{}",
+        difference_amp("1G", "1G", "1G", "1G", "")
+    );
+    let b = budget(&chain);
+    let f = 50.0;
+    let s = num_complex::Complex64::new(0.0, 2.0 * PI * f);
+    let z_imb = 1.0 / (1.0 / 51e3 + s * 47e-9);
+    // The difference stage's own 2 GΩ common-mode input adds in parallel.
+    let z_cm = 1.0 / (1.0 / 100e6 + 1.0 / 2e9 + s * 10e-12);
+    let expected = (z_imb / (z_imb + z_cm)).norm();
+    assert_relative_eq!(at(&b, f).nominal_magnitude(), expected, max_relative = 2e-3);
+}
+
+/// A perfectly matched chain has an infinite CMRR, not NaN.
+#[test]
+fn matched_chain_is_infinite() {
+    let chain = format!(
+        "  - source:\n      resistance: 1k\n      filter_capacitance: 1n\n{}",
+        difference_amp(
+            "10k",
+            "100k",
+            "10k",
+            "100k",
+            "      opamp:\n        open_loop_gain: 100 dB\n        gain_bandwidth: 1 MHz\n"
+        )
+    );
+    let b = budget(&chain);
+    for freq in [0.0, 50.0, 1e5] {
+        let analysis = at(&b, freq);
+        assert_eq!(analysis.worst_case(), 0.0);
+        assert!(analysis.worst_case().is_finite());
+    }
+}
