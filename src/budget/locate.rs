@@ -25,8 +25,14 @@ pub struct SourceMap {
 }
 
 enum Frame {
-    Map { path: String, key: Option<String> },
-    Seq { path: String, next: usize },
+    Map {
+        path: String,
+        key: Option<(String, Position)>,
+    },
+    Seq {
+        path: String,
+        next: usize,
+    },
 }
 
 impl SourceMap {
@@ -48,16 +54,25 @@ impl SourceMap {
                 | Event::SequenceStart(..) => {
                     let is_container =
                         matches!(event, Event::MappingStart(..) | Event::SequenceStart(..));
+                    let mut recorded = position;
                     let path = match stack.last_mut() {
                         None => String::new(),
                         Some(Frame::Map { path, key }) => match key.take() {
-                            Some(k) => join(path, &k),
+                            Some((k, key_position)) => {
+                                // A map or list value is shown at its key,
+                                // a single value where it is written.
+                                if is_container {
+                                    recorded = key_position;
+                                }
+                                join(path, &k)
+                            }
                             None => {
                                 // This node is a key.
-                                *key = Some(match &event {
+                                let text = match &event {
                                     Event::Scalar(text, ..) => text.to_string(),
                                     _ => "?".to_string(),
-                                });
+                                };
+                                *key = Some((text, position));
                                 if is_container {
                                     stack.push(Frame::Map {
                                         path: "?key".into(),
@@ -72,7 +87,7 @@ impl SourceMap {
                             format!("{path}[{}]", *next - 1)
                         }
                     };
-                    positions.entry(path.clone()).or_insert(position);
+                    positions.entry(path.clone()).or_insert(recorded);
                     match event {
                         Event::MappingStart(..) => stack.push(Frame::Map { path, key: None }),
                         Event::SequenceStart(..) => stack.push(Frame::Seq { path, next: 0 }),
@@ -86,6 +101,11 @@ impl SourceMap {
             }
         }
         SourceMap { positions }
+    }
+
+    /// Whether the document has a value at exactly `path`.
+    pub fn contains(&self, path: &str) -> bool {
+        self.positions.contains_key(path)
     }
 
     /// The position of the value at `path`, or of its nearest enclosing
@@ -138,6 +158,6 @@ mod tests {
         );
         assert_eq!(map.locate("chain[1].difference_amp.r2.n").unwrap().line, 7);
         // A missing field falls back to its enclosing map.
-        assert_eq!(map.locate("chain[1].difference_amp.r4").unwrap().line, 6);
+        assert_eq!(map.locate("chain[1].difference_amp.r4").unwrap().line, 5);
     }
 }

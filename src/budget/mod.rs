@@ -51,7 +51,13 @@ fn yaml_diagnostic(error: &serde_yaml::Error, file: &str, map: &SourceMap) -> Di
             column: l.column(),
         })
         .or_else(|| field.as_deref().and_then(|f| map.locate(f)));
-    let fix = suggest_fix(&message);
+    // Names already used in the same map are not suggested again.
+    let taken = |name: &str| {
+        field
+            .as_deref()
+            .is_some_and(|f| map.contains(&format!("{f}.{name}")))
+    };
+    let fix = suggest_fix(&message, taken);
     Diagnostic {
         file: file.to_string(),
         position,
@@ -66,7 +72,7 @@ fn quoted(text: &str) -> Vec<&str> {
     text.split('`').skip(1).step_by(2).collect()
 }
 
-fn suggest_fix(message: &str) -> Option<String> {
+fn suggest_fix(message: &str, taken: impl Fn(&str) -> bool) -> Option<String> {
     if message.starts_with("unknown field") || message.starts_with("unknown variant") {
         let words = quoted(message);
         let (unknown, expected) = words.split_first()?;
@@ -78,7 +84,12 @@ fn suggest_fix(message: &str) -> Option<String> {
         if expected.is_empty() {
             return Some(format!("remove `{unknown}`: this map takes no such {what}"));
         }
-        return Some(match error::closest(unknown, expected) {
+        let free: Vec<&str> = expected
+            .iter()
+            .copied()
+            .filter(|name| !taken(name))
+            .collect();
+        return Some(match error::closest(unknown, &free) {
             Some(best) => format!("did you mean `{best}`? (valid: {})", expected.join(", ")),
             None => format!("use one of: {}", expected.join(", ")),
         });
@@ -102,15 +113,18 @@ mod tests {
 
     #[test]
     fn fixes_for_unknown_names() {
-        let fix =
-            suggest_fix("unknown field `r5`, expected one of `label`, `r1`, `r2`, `r3`, `r4`")
-                .unwrap();
+        let none = |_: &str| false;
+        let message = "unknown field `r5`, expected one of `label`, `r1`, `r2`, `r3`, `r4`";
+        let fix = suggest_fix(message, none).unwrap();
         assert!(fix.starts_with("did you mean `r1`?"), "{fix}");
-        let fix = suggest_fix("unknown variant `diff_amp`, expected `source` or `difference_amp`")
-            .unwrap();
+        // Names already present in the map are not suggested.
+        let fix = suggest_fix(message, |n: &str| n != "r4").unwrap();
+        assert!(fix.starts_with("did you mean `r4`?"), "{fix}");
+        let message = "unknown variant `diff_amp`, expected `source` or `difference_amp`";
+        let fix = suggest_fix(message, none).unwrap();
         assert!(fix.contains("`difference_amp`"), "{fix}");
         assert_eq!(
-            suggest_fix("missing field `r4`").unwrap(),
+            suggest_fix("missing field `r4`", none).unwrap(),
             "add `r4: …` here"
         );
     }
