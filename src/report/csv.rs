@@ -110,7 +110,7 @@ fn push_line(out: &mut String, lead: &[String; 4], fields: &[String; 9]) {
 }
 
 fn number(value: f64) -> String {
-    format!("{value:e}")
+    format!("{value}")
 }
 
 fn db(value: Db) -> String {
