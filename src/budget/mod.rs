@@ -24,6 +24,20 @@ pub fn load_budget(path: &Path) -> Result<Budget, LoadError> {
 
 /// Validate budget-file `text`; `file` names it in messages.
 pub fn parse_budget(text: &str, file: &str) -> Result<Budget, LoadError> {
+    let has_content = text
+        .lines()
+        .any(|line| !line.trim().is_empty() && !line.trim_start().starts_with('#'));
+    if !has_content {
+        return Err(LoadError::Invalid(vec![Diagnostic {
+            file: file.to_string(),
+            position: None,
+            field: None,
+            problem: "the budget file is empty".into(),
+            fix: Some(
+                "start from one of the examples in budgets/ and describe your front end".into(),
+            ),
+        }]));
+    }
     let map = SourceMap::build(text);
     let raw: raw::RawBudget = serde_yaml::from_str(text)
         .map_err(|e| LoadError::Invalid(vec![yaml_diagnostic(&e, file, &map)]))?;
@@ -58,6 +72,7 @@ fn yaml_diagnostic(error: &serde_yaml::Error, file: &str, map: &SourceMap) -> Di
             .is_some_and(|f| map.contains(&format!("{f}.{name}")))
     };
     let fix = suggest_fix(&message, taken);
+    let message = readable_type_names(&message);
     Diagnostic {
         file: file.to_string(),
         position,
@@ -65,6 +80,30 @@ fn yaml_diagnostic(error: &serde_yaml::Error, file: &str, map: &SourceMap) -> Di
         problem: message,
         fix,
     }
+}
+
+/// serde names the schema's Rust types in some messages; say what they are
+/// in the budget file's own terms instead.
+fn readable_type_names(message: &str) -> String {
+    let mut text = message.replace(
+        "struct RawBudget",
+        "a budget: a map with `name`, `chain` and `interference`",
+    );
+    for kind in [
+        "Source",
+        "Cable",
+        "DifferenceAmp",
+        "OpAmp",
+        "Interference",
+        "Requirement",
+        "MinimumCmrr",
+    ] {
+        text = text.replace(&format!("struct Raw{kind}"), "a map of named fields");
+    }
+    text.replace(
+        "enum RawStage",
+        "a stage such as `source: {…}` or `difference_amp: {…}`",
+    )
 }
 
 /// The words between backticks in `text`.

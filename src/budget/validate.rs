@@ -125,21 +125,14 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<ParamId> {
         let quantity = self.quantity(scalar, path, dimension, Range::Positive, true)?;
-        Some(
-            self.parameters.add(Parameter {
-                name,
-                stage,
-                field: path.to_string(),
-                nominal: quantity.value,
-                variation: quantity
-                    .tolerance
-                    .filter(|t| *t > 0.0)
-                    .map_or(Variation::Fixed, |tolerance| Variation::Relative {
-                        tolerance,
-                    }),
-                presentation: Presentation::Value(dimension),
-            }),
-        )
+        Some(self.add_value(
+            name,
+            stage,
+            path,
+            quantity.value,
+            quantity.tolerance,
+            dimension,
+        ))
     }
 
     /// A fixed (untoleranced) parameter.
@@ -152,14 +145,31 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<ParamId> {
         let quantity = self.quantity(scalar, path, dimension, Range::Positive, false)?;
-        Some(self.parameters.add(Parameter {
+        Some(self.add_value(name, stage, path, quantity.value, None, dimension))
+    }
+
+    /// Add a value parameter; a zero or absent tolerance makes it fixed.
+    fn add_value(
+        &mut self,
+        name: String,
+        stage: usize,
+        path: &str,
+        nominal: f64,
+        tolerance: Option<f64>,
+        dimension: Dimension,
+    ) -> ParamId {
+        self.parameters.add(Parameter {
             name,
             stage,
             field: path.to_string(),
-            nominal: quantity.value,
-            variation: Variation::Fixed,
+            nominal,
+            variation: tolerance
+                .filter(|t| *t > 0.0)
+                .map_or(Variation::Fixed, |tolerance| Variation::Relative {
+                    tolerance,
+                }),
             presentation: Presentation::Value(dimension),
-        }))
+        })
     }
 
     /// A per-leg part: one parameter per leg.
@@ -517,21 +527,14 @@ impl Validator<'_> {
                 true,
             );
             if let (Some(per_length), Some(length)) = (per_length, &length) {
-                ids[leg] = Some(
-                    self.parameters.add(Parameter {
-                        name: format!("cable C ({})", if leg == 0 { "p" } else { "n" }),
-                        stage,
-                        field: leg_path,
-                        nominal: per_length.value * length.value,
-                        variation: per_length
-                            .tolerance
-                            .filter(|t| *t > 0.0)
-                            .map_or(Variation::Fixed, |tolerance| Variation::Relative {
-                                tolerance,
-                            }),
-                        presentation: Presentation::Value(Dimension::Capacitance),
-                    }),
-                );
+                ids[leg] = Some(self.add_value(
+                    format!("cable C ({})", if leg == 0 { "p" } else { "n" }),
+                    stage,
+                    &leg_path,
+                    per_length.value * length.value,
+                    per_length.tolerance,
+                    Dimension::Capacitance,
+                ));
             } else if matches!(raw.capacitance, PerLeg::Both(_)) {
                 break;
             }

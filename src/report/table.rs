@@ -1,7 +1,9 @@
 //! The terminal report: per interference source, a contribution table and
 //! a totals table, then the requirement and the verdict.
 
-use super::{ContributionRow, Db, FrequencyResult, Report, RequirementOutcome, SourceResult};
+use super::{
+    ContributionRow, Corner, Db, FrequencyResult, Report, RequirementOutcome, SourceResult,
+};
 use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
 use tabled::builder::Builder;
@@ -60,15 +62,11 @@ fn source_section(result: &SourceResult) -> String {
         }
         totals.push_record(row);
     }
-    out.push_str(&styled(totals, 1));
-    out.push('\n');
-    out.push_str(&corner_line(
-        result.corner.cmrr_db,
-        result.corner.interaction_share,
+    out.push_str(&section_end(
+        totals,
+        &result.corner,
+        result.requirement.as_ref(),
     ));
-    if let Some(outcome) = &result.requirement {
-        out.push_str(&requirement_lines(outcome));
-    }
     out
 }
 
@@ -88,15 +86,11 @@ fn frequency_section(result: &FrequencyResult) -> String {
             format_db(result.cmrr_db.judged(judgement).0),
         ]);
     }
-    out.push_str(&styled(totals, 1));
-    out.push('\n');
-    out.push_str(&corner_line(
-        result.corner.cmrr_db,
-        result.corner.interaction_share,
+    out.push_str(&section_end(
+        totals,
+        &result.corner,
+        result.requirement.as_ref(),
     ));
-    if let Some(outcome) = &result.requirement {
-        out.push_str(&requirement_lines(outcome));
-    }
     out
 }
 
@@ -157,6 +151,22 @@ fn styled(builder: Builder, first_numeric_column: usize) -> String {
         .with(Style::rounded())
         .modify(Columns::new(first_numeric_column..), Alignment::right());
     table.to_string()
+}
+
+/// The totals table, the corner line and the requirement, which end every
+/// section.
+fn section_end(
+    totals: Builder,
+    corner: &Corner,
+    requirement: Option<&RequirementOutcome>,
+) -> String {
+    let mut out = styled(totals, 1);
+    out.push('\n');
+    out.push_str(&corner_line(corner.cmrr_db, corner.interaction_share));
+    if let Some(outcome) = requirement {
+        out.push_str(&requirement_lines(outcome));
+    }
+    out
 }
 
 fn corner_line(cmrr: Db, interaction_share: f64) -> String {
