@@ -1,0 +1,195 @@
+//! Validation of interference sources and the requirement.
+
+use super::{Range, Validator};
+use crate::budget::raw::{RawInterference, RawJudgement, RawRequirement, Scalar};
+use crate::model::{Amplitude, ErrorLimit, Interference, Judgement, MinimumCmrr, Requirement};
+use crate::quantity::{parse_quantity, Dimension};
+
+impl Validator<'_> {
+    pub(super) fn amplitude(&mut self, scalar: &Scalar, path: &str) -> Option<Amplitude> {
+        let q = self.quantity(scalar, path, Dimension::Voltage, Range::Positive, false)?;
+        Some(Amplitude {
+            volts: q.value,
+            form: q.form,
+        })
+    }
+
+    pub(super) fn interference(
+        &mut self,
+        raw: &RawInterference,
+        path: &str,
+        full_scale: Option<f64>,
+    ) -> Option<Interference> {
+        let frequency = self.quantity(
+            &raw.frequency,
+            &format!("{path}.frequency"),
+            Dimension::Frequency,
+            Range::NonNegative,
+            false,
+        );
+        let amplitude_path = format!("{path}.amplitude");
+        let amplitude = self.amplitude(&raw.amplitude, &amplitude_path);
+        let (frequency, amplitude) = (frequency?, amplitude?);
+        let text = raw.amplitude.0.trim();
+        if frequency.value == 0.0 && amplitude.form.is_some() {
+            self.problem(
+                &amplitude_path,
+                format!("`{text}` gives an rms, peak or peak-to-peak form to a DC common mode"),
+                "write a DC common mode as a plain voltage, e.g. `2.5 V`",
+            );
+            return None;
+        }
+        if frequency.value > 0.0 && amplitude.form.is_none() {
+            self.problem(&amplitude_path, format!("`{text}` does not say whether the alternating amplitude is rms, peak or peak-to-peak"), format!("write `{text} rms`, `{text} pk` or `{text} pp`"));
+            return None;
+        }
+        let max_error = raw
+            .max_error
+            .as_ref()
+            .and_then(|e| self.error_limit(e, &format!("{path}.max_error"), full_scale));
+        if raw.name.trim().is_empty() {
+            self.problem(
+                &format!("{path}.name"),
+                "the interference source has no name",
+                "name it, e.g. `name: mains hum on the cable`",
+            );
+        }
+        Some(Interference {
+            name: raw.name.trim().to_string(),
+            amplitude,
+            frequency_hz: frequency.value,
+            max_error,
+        })
+    }
+
+    /// An allowed error: a voltage, or a fraction of full scale. The full
+    /// scale is resolved later against the requirement.
+    pub(super) fn error_limit(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        full_scale: Option<f64>,
+    ) -> Option<ErrorLimit> {
+        if parse_quantity(&scalar.0, Dimension::Fraction).is_ok() {
+            let q = self.quantity(scalar, path, Dimension::Fraction, Range::Positive, false)?;
+            return Some(ErrorLimit::OfFullScale {
+                fraction: q.value,
+                full_scale_volts: full_scale.unwrap_or(f64::NAN),
+            });
+        }
+        if let Err(error) = parse_quantity(&scalar.0, Dimension::Voltage) {
+            self.problem(
+                path,
+                error.to_string(),
+                "write a voltage referred to the input (e.g. `1 uV rms`, `0.5 uV`) or a fraction of full scale (e.g. `10 ppm`, `0.01 %`)",
+            );
+            return None;
+        }
+        let q = self.quantity(scalar, path, Dimension::Voltage, Range::Positive, false)?;
+        Some(ErrorLimit::Volts(Amplitude {
+            volts: q.value,
+            form: q.form,
+        }))
+    }
+
+    pub(super) fn requirement(&mut self, raw: &RawRequirement) -> Option<Requirement> {
+        let full_scale_volts = raw.full_scale.as_ref().and_then(|f| {
+            let q = self.quantity(
+                f,
+                "requirement.full_scale",
+                Dimension::Voltage,
+                Range::Positive,
+                false,
+            )?;
+            if q.form.is_some() {
+                self.problem(
+                    "requirement.full_scale",
+                    "a full scale is the largest differential input, a plain voltage",
+                    "write it without rms/pk/pp, e.g. `10 mV`",
+                );
+                return None;
+            }
+            Some(q.value)
+        });
+        let max_error = raw
+            .max_error
+            .as_ref()
+            .and_then(|e| self.error_limit(e, "requirement.max_error", full_scale_volts));
+        let min_cmrr = raw
+            .min_cmrr
+            .iter()
+            .enumerate()
+            .filter_map(|(i, point)| {
+                let path = format!("requirement.min_cmrr[{i}]");
+                let at = self.quantity(
+                    &point.at,
+                    &format!("{path}.at"),
+                    Dimension::Frequency,
+                    Range::NonNegative,
+                    false,
+                );
+                let cmrr = self.quantity(
+                    &point.cmrr,
+                    &format!("{path}.cmrr"),
+                    Dimension::Decibels,
+                    Range::Positive,
+                    false,
+                );
+                Some(MinimumCmrr {
+                    frequency_hz: at?.value,
+                    cmrr_db: 20.0 * cmrr?.value.log10(),
+                })
+            })
+            .collect();
+        Some(Requirement {
+            judged_on: match raw.judged_on.unwrap_or(RawJudgement::WorstCase) {
+                RawJudgement::WorstCase => Judgement::WorstCase,
+                RawJudgement::Rss => Judgement::Rss,
+                RawJudgement::Nominal => Judgement::Nominal,
+            },
+            min_cmrr,
+            max_error,
+            full_scale_volts,
+        })
+    }
+
+    /// Cross-checks of error limits: a fraction of full scale needs a full
+    /// scale, and an unqualified voltage limit cannot apply to an
+    /// alternating source.
+    pub(super) fn check_error_limits(
+        &mut self,
+        raw: &[RawInterference],
+        sources: &[Interference],
+        requirement: Option<&Requirement>,
+    ) {
+        if raw.len() != sources.len() {
+            return; // a source already failed validation
+        }
+        let full_scale = requirement.and_then(|r| r.full_scale_volts);
+        let default_limit = requirement.and_then(|r| r.max_error);
+        if let Some(ErrorLimit::OfFullScale { .. }) = default_limit {
+            if full_scale.is_none() {
+                self.problem("requirement.max_error", "the allowed error is a fraction of full scale, but no full scale is given", "add `full_scale: …` to the requirement (the largest differential input, e.g. `10 mV`), or give the error in volts");
+            }
+        }
+        for (i, (raw_source, source)) in raw.iter().zip(sources).enumerate() {
+            let own = raw_source.max_error.is_some();
+            let path = if own {
+                format!("interference[{i}].max_error")
+            } else {
+                "requirement.max_error".to_string()
+            };
+            match source.max_error.or(default_limit) {
+                Some(ErrorLimit::OfFullScale { .. }) if own && full_scale.is_none() => {
+                    self.problem(&path, "the allowed error is a fraction of full scale, but the requirement gives no full scale", "add `full_scale: …` to the requirement, or give the error in volts");
+                }
+                Some(ErrorLimit::Volts(limit))
+                    if limit.form.is_none() && source.frequency_hz > 0.0 =>
+                {
+                    self.problem(&path, format!("the allowed error has no rms, peak or peak-to-peak form, but `{}` is alternating", source.name), "add the form, e.g. `1 uV rms` or `2 uV pp`");
+                }
+                _ => {}
+            }
+        }
+    }
+}

@@ -1,0 +1,330 @@
+//! From the raw schema to the validated model: parse every value against
+//! its field's dimension, check it is physical, check the chain's order,
+//! and collect every problem with its position.
+
+mod amplifiers;
+mod interference;
+mod source;
+
+use super::error::Diagnostic;
+use super::locate::SourceMap;
+use super::raw::{PerLeg, RawBudget, RawStage, Scalar};
+use crate::model::{
+    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, Variation,
+};
+use crate::quantity::{parse_quantity, Dimension, Quantity};
+use crate::stage::Stage;
+
+/// What the validator produced: the budget, or every problem found.
+pub type Validated = Result<Budget, Vec<Diagnostic>>;
+
+/// Validate a raw budget. `file` names it in messages; `map` gives positions.
+pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
+    let mut v = Validator {
+        file,
+        map,
+        problems: Vec::new(),
+        parameters: Parameters::new(),
+    };
+    let budget = v.budget(raw);
+    if v.problems.is_empty() {
+        Ok(budget)
+    } else {
+        Err(v.problems)
+    }
+}
+
+/// How a value's sign is constrained.
+#[derive(Clone, Copy, PartialEq)]
+enum Range {
+    /// Strictly above zero.
+    Positive,
+    /// Zero or above.
+    NonNegative,
+}
+
+struct Validator<'a> {
+    file: &'a str,
+    map: &'a SourceMap,
+    problems: Vec<Diagnostic>,
+    parameters: Parameters,
+}
+
+impl Validator<'_> {
+    fn problem(&mut self, path: &str, problem: impl Into<String>, fix: impl Into<String>) {
+        let fix = fix.into();
+        self.problems.push(Diagnostic {
+            file: self.file.to_string(),
+            position: self.map.locate(path),
+            field: Some(path.to_string()),
+            problem: problem.into(),
+            fix: (!fix.is_empty()).then_some(fix),
+        });
+    }
+
+    /// Parse a value of a dimension, checking its range. A tolerance is
+    /// refused unless `tolerance_allowed`.
+    fn quantity(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        dimension: Dimension,
+        range: Range,
+        tolerance_allowed: bool,
+    ) -> Option<Quantity> {
+        let quantity = match parse_quantity(&scalar.0, dimension) {
+            Ok(q) => q,
+            Err(error) => {
+                self.problem(path, error.to_string(), error.fix());
+                return None;
+            }
+        };
+        let ok = match range {
+            Range::Positive => quantity.value > 0.0,
+            Range::NonNegative => quantity.value >= 0.0,
+        };
+        if !ok {
+            let (what, fix) = match range {
+                Range::Positive => (
+                    "above zero",
+                    "give a positive value, or leave the field out when the part is absent",
+                ),
+                Range::NonNegative => ("zero or above", "give a value of zero or more"),
+            };
+            self.problem(
+                path,
+                format!(
+                    "`{}` is not physical here: a {dimension} must be {what}",
+                    scalar.0.trim()
+                ),
+                fix,
+            );
+            return None;
+        }
+        if quantity.tolerance.is_some() && !tolerance_allowed {
+            self.problem(
+                path,
+                format!(
+                    "`{}` has a tolerance, but this field takes a single value",
+                    scalar.0.trim()
+                ),
+                "remove the `±…` part",
+            );
+            return None;
+        }
+        Some(quantity)
+    }
+
+    /// Register a circuit part (a toleranced value) as a parameter.
+    fn part(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        dimension: Dimension,
+        name: String,
+        stage: usize,
+    ) -> Option<ParamId> {
+        let quantity = self.quantity(scalar, path, dimension, Range::Positive, true)?;
+        Some(self.add_value(
+            name,
+            stage,
+            path,
+            quantity.value,
+            quantity.tolerance,
+            dimension,
+        ))
+    }
+
+    /// A fixed (untoleranced) parameter.
+    fn fixed(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        dimension: Dimension,
+        name: String,
+        stage: usize,
+    ) -> Option<ParamId> {
+        let quantity = self.quantity(scalar, path, dimension, Range::Positive, false)?;
+        Some(self.add_value(name, stage, path, quantity.value, None, dimension))
+    }
+
+    /// Add a value parameter; a zero or absent tolerance makes it fixed.
+    fn add_value(
+        &mut self,
+        name: String,
+        stage: usize,
+        path: &str,
+        nominal: f64,
+        tolerance: Option<f64>,
+        dimension: Dimension,
+    ) -> ParamId {
+        self.parameters.add(Parameter {
+            name,
+            stage,
+            field: path.to_string(),
+            nominal,
+            variation: tolerance
+                .filter(|t| *t > 0.0)
+                .map_or(Variation::Fixed, |tolerance| Variation::Relative {
+                    tolerance,
+                }),
+            presentation: Presentation::Value(dimension),
+        })
+    }
+
+    /// A per-leg part: one parameter per leg.
+    fn leg_parts(
+        &mut self,
+        value: &PerLeg,
+        path: &str,
+        dimension: Dimension,
+        name: &str,
+        stage: usize,
+    ) -> [Option<ParamId>; 2] {
+        let (p, n, p_path, n_path) = match value {
+            PerLeg::Both(s) => (s, s, path.to_string(), path.to_string()),
+            PerLeg::Each { p, n } => (p, n, format!("{path}.p"), format!("{path}.n")),
+        };
+        let p_id = self.part(p, &p_path, dimension, format!("{name} (p)"), stage);
+        // One problem per field is enough when both legs share the text.
+        if p_id.is_none() && matches!(value, PerLeg::Both(_)) {
+            return [None, None];
+        }
+        let n_id = self.part(n, &n_path, dimension, format!("{name} (n)"), stage);
+        [p_id, n_id]
+    }
+
+    fn optional_leg_parts(
+        &mut self,
+        value: &Option<PerLeg>,
+        path: &str,
+        dimension: Dimension,
+        name: &str,
+        stage: usize,
+    ) -> [Option<ParamId>; 2] {
+        match value {
+            Some(value) => self.leg_parts(value, path, dimension, name, stage),
+            None => [None, None],
+        }
+    }
+
+    fn budget(&mut self, raw: RawBudget) -> Budget {
+        if raw.name.trim().is_empty() {
+            self.problem(
+                "name",
+                "the budget's name is empty",
+                "give the design a name, e.g. `name: scale front end, rev B`",
+            );
+        }
+        let chain = self.chain(&raw.chain);
+        let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
+        let full_scale = requirement.as_ref().and_then(|r| r.full_scale_volts);
+        let interference: Vec<Interference> = raw
+            .interference
+            .iter()
+            .enumerate()
+            .filter_map(|(i, source)| {
+                self.interference(source, &format!("interference[{i}]"), full_scale)
+            })
+            .collect();
+        let extra_frequencies_hz: Vec<f64> = raw
+            .extra_frequencies
+            .iter()
+            .enumerate()
+            .filter_map(|(i, f)| {
+                self.quantity(
+                    f,
+                    &format!("extra_frequencies[{i}]"),
+                    Dimension::Frequency,
+                    Range::NonNegative,
+                    false,
+                )
+                .map(|q| q.value)
+            })
+            .collect();
+        self.check_error_limits(&raw.interference, &interference, requirement.as_ref());
+        let has_points = !interference.is_empty()
+            || !extra_frequencies_hz.is_empty()
+            || requirement.as_ref().is_some_and(|r| !r.min_cmrr.is_empty());
+        if !has_points && self.problems.is_empty() {
+            self.problem(
+                "interference",
+                "there is nothing to analyse: no interference source, no required CMRR and no extra frequency",
+                "add an interference source, e.g. `interference: [{name: mains hum, amplitude: 1 V rms, frequency: 50 Hz}]`",
+            );
+        }
+        Budget {
+            name: raw.name.trim().to_string(),
+            notes: raw.notes.clone(),
+            chain,
+            parameters: std::mem::take(&mut self.parameters),
+            interference,
+            requirement,
+            extra_frequencies_hz,
+            safety: Safety {
+                patient_connected: raw.patient_connected.unwrap_or(false),
+                mains_referenced: raw.mains_referenced.unwrap_or(false),
+            },
+        }
+    }
+
+    fn chain(&mut self, raw: &[RawStage]) -> Vec<Stage> {
+        if raw.is_empty() {
+            self.problem(
+                "chain",
+                "the chain is empty",
+                "list the stages from the sensor on, e.g. a `source` then a `difference_amp`",
+            );
+            return Vec::new();
+        }
+        let mut stages = Vec::new();
+        for (index, stage) in raw.iter().enumerate() {
+            let path = format!("chain[{index}]");
+            let built = match stage {
+                RawStage::Source(source) => {
+                    if index != 0 {
+                        self.problem(
+                            &format!("{path}.source"),
+                            format!("a source network cannot follow an amplifier (it is stage {} of the chain)", index + 1),
+                            "put the source network first: it describes what drives the first amplifier",
+                        );
+                    }
+                    self.source(source, &format!("{path}.source"), index)
+                        .map(|s| (s, source.label.clone(), "source network"))
+                }
+                RawStage::DifferenceAmp(amp) => self
+                    .difference_amp(amp, &format!("{path}.difference_amp"), index)
+                    .map(|s| (s, amp.label.clone(), "difference amplifier")),
+            };
+            if let Some((kind, label, default_label)) = built {
+                let label = label
+                    .map(|l| l.trim().to_string())
+                    .filter(|l| !l.is_empty())
+                    .unwrap_or_else(|| default_label.to_string());
+                stages.push(Stage { label, kind });
+            }
+        }
+        if !raw.iter().any(|s| !matches!(s, RawStage::Source(_))) {
+            self.problem(
+                "chain",
+                "the chain has no amplifier: a source network alone has no output to measure",
+                "add an amplifier stage after the source, e.g. `- difference_amp: {r1: 10k, r2: 100k, r3: 10k, r4: 100k}`",
+            );
+        }
+        disambiguate_labels(&mut stages);
+        stages
+    }
+}
+
+/// Number repeated default labels: `difference amplifier 1`, `… 2`.
+fn disambiguate_labels(stages: &mut [Stage]) {
+    let labels: Vec<String> = stages.iter().map(|s| s.label.clone()).collect();
+    let mut seen = std::collections::HashMap::<String, usize>::new();
+    for (stage, label) in stages.iter_mut().zip(&labels) {
+        if labels.iter().filter(|l| *l == label).count() > 1 {
+            let count = seen.entry(label.clone()).or_insert(0);
+            *count += 1;
+            stage.label = format!("{label} {count}");
+        }
+    }
+}
