@@ -247,3 +247,111 @@ fn matched_chain_is_infinite() {
         assert!(analysis.worst_case().is_finite());
     }
 }
+
+fn three_opamp(rg: &str, first: &str, difference: &str) -> String {
+    format!(
+        "  - three_opamp_inamp:\n      rg: {rg}\n      rf1: 24.9k\n      rf2: 24.9k\n{first}      difference_stage:\n{difference}"
+    )
+}
+
+fn unity_difference_stage(tolerance: &str) -> String {
+    format!("        r1: 10k {tolerance}\n        r2: 10k {tolerance}\n        r3: 10k {tolerance}\n        r4: 10k {tolerance}\n")
+}
+
+/// Cascaded stages: 1/CMRR = 1/CMRR_1 + 1/(G1 CMRR_2) — the first stage's
+/// differential gain divides the second stage's conversion, and with ideal
+/// op-amps the first stage passes common mode with gain exactly 1.
+/// Pallas-Areny and Webster, "Common mode rejection ratio for cascaded
+/// differential amplifier stages", IEEE Trans. Instrum. Meas. 40(4),
+/// 677-681, 1991.
+#[test]
+fn inamp_cmrr_scales_with_first_stage_gain() {
+    let t = 1e-3;
+    let diff_cmrr = 2.0 / (4.0 * t); // unity-gain difference stage, four resistors at ±t
+                                     // RG = 1 TΩ stands for no gain resistor (G1 = 1).
+    for rg in [1e12, 5.533e3, 503.0, 49.85] {
+        let g1 = 1.0 + 2.0 * 24.9e3 / rg;
+        let b = budget(&three_opamp(
+            &format!("{rg}"),
+            "",
+            &unity_difference_stage("±0.1 %"),
+        ));
+        let analysis = at(&b, 0.0);
+        let expected = g1 * diff_cmrr;
+        assert_relative_eq!(
+            1.0 / analysis.worst_case(),
+            expected,
+            max_relative = 5.0 * t
+        );
+        // The chain's differential gain is G1 times the unity second stage.
+        assert_relative_eq!(analysis.differential_gain.norm(), g1, max_relative = 1e-9);
+    }
+}
+
+/// The first stage's own limit: 1/CMRR_first ≈ (1/CMRR_A1 − 1/CMRR_A2) +
+/// (1/A1(jf) − 1/A2(jf)), independent of G1; with single-pole op-amps the
+/// second term gives f |1/GBW1 − 1/GBW2|, rising 20 dB/decade (CMRR
+/// falling). Pallas-Areny and Webster 1991 (cascaded stages, as above);
+/// the op-amp mismatch term is common practice, no source.
+#[test]
+fn inamp_first_stage_mismatch_is_independent_of_gain() {
+    let first =
+        "      first_stage_opamps:\n        gain_bandwidth: 1 MHz ±20 %\n        cmrr: 100 dB\n";
+    let mut previous: Option<f64> = None;
+    for rg in ["5.533k", "503", "49.85"] {
+        let b = budget(&three_opamp(rg, first, &unity_difference_stage("")));
+        let analysis = at(&b, 1e3);
+        let share = |name: &str| {
+            analysis
+                .contributions
+                .iter()
+                .find(|c| b.parameters.get(c.param).name == name)
+                .unwrap()
+                .magnitude()
+        };
+        // GBW −20 % on one op-amp alone: 1 kHz × (1/0.8 MHz − 1/1 MHz).
+        let gbw_term = 1e3 * (1.0 / 0.8e6 - 1.0 / 1e6);
+        assert_relative_eq!(share("A1 gain-bandwidth"), gbw_term, max_relative = 0.01);
+        assert_relative_eq!(share("A2 gain-bandwidth"), gbw_term, max_relative = 0.01);
+        // An op-amp's CMRR alone, referred to the input unchanged.
+        assert_relative_eq!(share("A1 CMRR"), 1e-5, max_relative = 0.01);
+        if let Some(previous) = previous {
+            assert_relative_eq!(share("A1 gain-bandwidth"), previous, max_relative = 0.01);
+        }
+        previous = Some(share("A1 gain-bandwidth"));
+        // 20 dB/decade: ten times the frequency, ten times the conversion.
+        let high = at(&b, 10e3);
+        let high_gbw = high
+            .contributions
+            .iter()
+            .find(|c| b.parameters.get(c.param).name == "A1 gain-bandwidth")
+            .unwrap()
+            .magnitude();
+        assert_relative_eq!(
+            high_gbw / share("A1 gain-bandwidth"),
+            10.0,
+            max_relative = 0.01
+        );
+    }
+}
+
+/// An integrated in-amp block reproduces its stated CMRR at DC, takes the
+/// minimum from its table at the configured gain (interpolated in dB
+/// against log gain; common practice, no source), and its gain law.
+#[test]
+fn integrated_inamp_block() {
+    let chain = "  - integrated_inamp:\n      gain_resistor: 494\n      gain_law: {base: 1, constant: 49.4k}\n      cmrr_by_gain:\n        - {gain: 10, cmrr: 95 dB}\n        - {gain: 1000, cmrr: 125 dB}\n      cmrr_corner: 200 Hz\n";
+    let b = budget(chain);
+    let analysis = at(&b, 0.0);
+    assert_relative_eq!(analysis.differential_gain.re, 101.0, max_relative = 1e-12);
+    // Gain 101 sits at log10(101) = 2.0043 of the table: 95 + 30 × 1.0043/2.
+    let expected_db = 95.0 + 30.0 * (101f64.log10() - 1.0) / 2.0;
+    assert_relative_eq!(
+        db(1.0 / analysis.worst_case()),
+        expected_db,
+        max_relative = 1e-9
+    );
+    // A decade above a decade above the corner: ~20 dB lower.
+    let high = at(&b, 20e3);
+    assert!((db(high.worst_case() / at(&b, 2e3).worst_case()) - 20.0).abs() < 0.05);
+}

@@ -33,6 +33,8 @@ pub struct RawBudget {
 pub enum RawStage {
     Source(Box<RawSource>),
     DifferenceAmp(Box<RawDifferenceAmp>),
+    ThreeOpampInamp(Box<RawThreeOpAmpInAmp>),
+    IntegratedInamp(Box<RawIntegratedInAmp>),
 }
 
 /// The source network.
@@ -85,6 +87,66 @@ pub struct RawDifferenceAmp {
     pub reference_resistance: Option<Scalar>,
     #[serde(default)]
     pub opamp: Option<RawOpAmp>,
+}
+
+/// The three-op-amp instrumentation amplifier.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawThreeOpAmpInAmp {
+    #[serde(default)]
+    pub label: Option<String>,
+    pub rg: Scalar,
+    pub rf1: Scalar,
+    pub rf2: Scalar,
+    #[serde(default)]
+    pub input_resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub input_capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub first_stage_opamps: Option<RawOpAmp>,
+    pub difference_stage: RawDifferenceAmp,
+}
+
+/// An integrated instrumentation amplifier.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawIntegratedInAmp {
+    #[serde(default)]
+    pub label: Option<String>,
+    #[serde(default)]
+    pub gain: Option<Scalar>,
+    #[serde(default)]
+    pub gain_resistor: Option<Scalar>,
+    #[serde(default)]
+    pub gain_law: Option<RawGainLaw>,
+    #[serde(default)]
+    pub cmrr: Option<Scalar>,
+    #[serde(default)]
+    pub cmrr_by_gain: Vec<RawCmrrAtGain>,
+    #[serde(default)]
+    pub cmrr_corner: Option<Scalar>,
+    #[serde(default)]
+    pub bandwidth: Option<Scalar>,
+    #[serde(default)]
+    pub input_resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub input_capacitance: Option<PerLeg>,
+}
+
+/// `G = base + constant / RG`.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawGainLaw {
+    pub base: Scalar,
+    pub constant: Scalar,
+}
+
+/// A minimum CMRR at one gain.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawCmrrAtGain {
+    pub gain: Scalar,
+    pub cmrr: Scalar,
 }
 
 /// An op-amp's data.

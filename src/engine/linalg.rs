@@ -160,6 +160,14 @@ impl NodalSystem {
         }
     }
 
+    /// Add `value` times input `input` to the right-hand side of `row` (a
+    /// known source term in a controlled-source equation).
+    pub fn input_term(&mut self, row: Node, input: usize, value: C64) {
+        if let Node::At(i) = row {
+            self.rhs[i][input] += value;
+        }
+    }
+
     /// Stamp a 2x2 admittance matrix (a load's input admittance) on nodes
     /// `p` and `n` against ground.
     pub fn admittance_matrix(&mut self, p: Node, n: Node, y: &Mat2) {

@@ -10,8 +10,8 @@ use crate::model::describe_volts;
 use crate::model::{
     Amplitude, Budget, ErrorLimit, Interference, Parameter, Presentation, Requirement, Variation,
 };
-use crate::quantity::{format_db, format_fraction, format_si};
-use crate::stage::StageKind;
+use crate::quantity::{format_db, format_fraction, format_si, Dimension};
+use crate::stage::{OpAmp, StageKind};
 
 /// Two frequencies closer than this (relative) are the same point.
 const SAME_FREQUENCY: f64 = 1e-9;
@@ -286,8 +286,23 @@ fn error_check(limit: &ErrorLimit, error_peak: f64) -> Check {
 fn remarks(budget: &Budget) -> Vec<String> {
     let mut remarks = Vec::new();
     for stage in &budget.chain {
-        if let StageKind::DifferenceAmp(amp) = &stage.kind {
-            let opamp = &amp.opamp;
+        let opamps: Vec<(&str, &OpAmp)> = match &stage.kind {
+            StageKind::DifferenceAmp(amp) => vec![("op-amp", &amp.opamp)],
+            StageKind::ThreeOpAmpInAmp(amp) => vec![
+                ("A1", &amp.first_stage[0]),
+                ("A2", &amp.first_stage[1]),
+                ("A3", &amp.difference_stage.opamp),
+            ],
+            StageKind::IntegratedInAmp(amp) if amp.cmrr_reciprocal.is_none() => {
+                remarks.push(format!(
+                    "{}: no CMRR given, so the in-amp's own CMRR is taken as infinite",
+                    stage.label
+                ));
+                Vec::new()
+            }
+            _ => Vec::new(),
+        };
+        for (who, opamp) in opamps {
             let mut ideal = Vec::new();
             if opamp.open_loop_gain.is_none() {
                 ideal.push("infinite open-loop gain");
@@ -300,7 +315,7 @@ fn remarks(budget: &Budget) -> Vec<String> {
             }
             if !ideal.is_empty() {
                 remarks.push(format!(
-                    "{}: op-amp taken as ideal in: {}",
+                    "{}: {who} taken as ideal in: {}",
                     stage.label,
                     ideal.join(", ")
                 ));
@@ -310,11 +325,7 @@ fn remarks(budget: &Budget) -> Vec<String> {
     let exact: Vec<String> = budget
         .parameters
         .iter()
-        .filter(|(_, p)| {
-            p.variation == Variation::Fixed
-                && matches!(p.presentation, Presentation::Value(_))
-                && is_part(p)
-        })
+        .filter(|(_, p)| p.variation == Variation::Fixed && is_component(p))
         .map(|(_, p)| format!("{} ({})", p.name, budget.chain[p.stage].label))
         .collect();
     if !exact.is_empty() {
@@ -326,7 +337,10 @@ fn remarks(budget: &Budget) -> Vec<String> {
     remarks
 }
 
-/// Parts whose tolerance a user would normally state.
-fn is_part(parameter: &Parameter) -> bool {
-    !parameter.name.starts_with("op-amp")
+/// Resistors and capacitors: parts whose tolerance a user normally states.
+fn is_component(parameter: &Parameter) -> bool {
+    matches!(
+        parameter.presentation,
+        Presentation::Value(Dimension::Resistance | Dimension::Capacitance)
+    )
 }

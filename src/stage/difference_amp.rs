@@ -46,7 +46,7 @@ pub struct DifferenceAmp {
 
 impl DifferenceAmp {
     /// The output voltage per volt at the p and n pins: `(m_p, m_n)`.
-    fn output_gains(&self, point: &Point) -> (C64, C64) {
+    pub(crate) fn output_gains(&self, point: &Point) -> (C64, C64) {
         let r1 = point.value(self.r1);
         let r2 = point.value(self.r2);
         let r3 = point.value(self.r3);

@@ -15,12 +15,18 @@
 //! file's raw schema and validator to build it (see DEVELOPERS.md).
 
 mod difference_amp;
+mod integrated_inamp;
 mod opamp;
+mod pins;
 mod source_network;
+mod three_opamp_inamp;
 
 pub use difference_amp::DifferenceAmp;
+pub use integrated_inamp::{GainSetting, IntegratedInAmp};
 pub use opamp::OpAmp;
+pub use pins::PinShunt;
 pub use source_network::{Leg, SourceImpedance, SourceNetwork};
+pub use three_opamp_inamp::ThreeOpAmpInAmp;
 
 use crate::engine::linalg::{Mat2, C64};
 
@@ -93,6 +99,10 @@ pub enum StageKind {
     SourceNetwork(SourceNetwork),
     /// One op-amp and four resistors.
     DifferenceAmp(DifferenceAmp),
+    /// Two followers sharing a gain resistor, then a difference amplifier.
+    ThreeOpAmpInAmp(ThreeOpAmpInAmp),
+    /// An instrumentation amplifier as a data-sheet block.
+    IntegratedInAmp(IntegratedInAmp),
 }
 
 impl StageKind {
@@ -101,6 +111,8 @@ impl StageKind {
         match self {
             StageKind::SourceNetwork(_) => "source network",
             StageKind::DifferenceAmp(_) => "difference amplifier",
+            StageKind::ThreeOpAmpInAmp(_) => "three-op-amp instrumentation amplifier",
+            StageKind::IntegratedInAmp(_) => "integrated instrumentation amplifier",
         }
     }
 
@@ -114,6 +126,8 @@ impl StageKind {
         match self {
             StageKind::SourceNetwork(stage) => stage,
             StageKind::DifferenceAmp(stage) => stage,
+            StageKind::ThreeOpAmpInAmp(stage) => stage,
+            StageKind::IntegratedInAmp(stage) => stage,
         }
     }
 }

@@ -295,6 +295,12 @@ impl Validator<'_> {
                 RawStage::DifferenceAmp(amp) => self
                     .difference_amp(amp, &format!("{path}.difference_amp"), index)
                     .map(|s| (s, amp.label.clone(), "difference amplifier")),
+                RawStage::ThreeOpampInamp(amp) => self
+                    .three_opamp_inamp(amp, &format!("{path}.three_opamp_inamp"), index)
+                    .map(|s| (s, amp.label.clone(), "instrumentation amplifier")),
+                RawStage::IntegratedInamp(amp) => self
+                    .integrated_inamp(amp, &format!("{path}.integrated_inamp"), index)
+                    .map(|s| (s, amp.label.clone(), "integrated in-amp")),
             };
             if let Some((kind, label, default_label)) = built {
                 let label = label

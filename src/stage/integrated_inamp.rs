@@ -1,0 +1,133 @@
+//! An integrated instrumentation amplifier, seen as a block from its data
+//! sheet.
+//!
+//! `v_o = G(jf) [ (v_p − v_n) + c(jf) (v_p + v_n)/2 ]` with
+//! `G(jf) = G / (1 + j f/f_bw)` (a single pole at the stated bandwidth, none
+//! when not given) and `c(jf) = c0 (1 + j f/f_c)`: `c0 = ±1/CMRR_dc` at the
+//! configured gain, a bound of unknown sign, rising 20 dB/decade above the
+//! corner f_c. The gain is set directly or by a gain resistor through
+//! `G = base + constant/RG`. Each input pin presents a common-mode
+//! resistance and capacitance to ground, which load the source network.
+//! The output is single-ended against the reference (ground).
+
+use super::{PinShunt, Point, SingularStage, StageSolve};
+use crate::engine::linalg::{Mat2, C64, ONE, ZERO};
+use crate::model::ParamId;
+
+/// How the gain is set.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum GainSetting {
+    /// The gain itself, V/V.
+    Direct(ParamId),
+    /// A gain resistor through `G = base + constant / RG`.
+    Resistor {
+        /// The gain resistor.
+        rg: ParamId,
+        /// The gain with no resistor fitted (usually 1).
+        base: f64,
+        /// The constant of the gain law, in ohms.
+        constant_ohms: f64,
+    },
+}
+
+impl GainSetting {
+    /// The gain at `point`.
+    pub fn gain(&self, point: &Point) -> f64 {
+        match *self {
+            GainSetting::Direct(id) => point.value(id),
+            GainSetting::Resistor {
+                rg,
+                base,
+                constant_ohms,
+            } => base + constant_ohms / point.value(rg),
+        }
+    }
+}
+
+/// An integrated instrumentation amplifier.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct IntegratedInAmp {
+    /// How the gain is set.
+    pub gain: GainSetting,
+    /// The signed reciprocal of the DC CMRR at the configured gain.
+    pub cmrr_reciprocal: Option<ParamId>,
+    /// The corner above which the CMRR falls 20 dB/decade.
+    pub cmrr_corner_hz: Option<ParamId>,
+    /// The −3 dB bandwidth of the differential gain.
+    pub bandwidth_hz: Option<ParamId>,
+    /// The input pins' shunts to ground.
+    pub pins: [PinShunt; 2],
+}
+
+impl StageSolve for IntegratedInAmp {
+    fn input_admittance(&self, point: &Point) -> Mat2 {
+        PinShunt::pair_admittance(&self.pins, point)
+    }
+
+    fn transfer(&self, point: &Point, _load: &Mat2) -> Result<Mat2, SingularStage> {
+        let roll_off = self.bandwidth_hz.map_or(ONE, |bw| {
+            ONE + C64::new(0.0, point.freq_hz / point.value(bw))
+        });
+        let gain = C64::new(self.gain.gain(point), 0.0) / roll_off;
+        let c = self.cmrr_reciprocal.map_or(ZERO, |id| {
+            let corner = self
+                .cmrr_corner_hz
+                .map_or(ZERO, |fc| C64::new(0.0, point.freq_hz / point.value(fc)));
+            C64::new(point.value(id), 0.0) * (ONE + corner)
+        });
+        Ok(Mat2::new(
+            gain * (ONE + c / 2.0),
+            -gain * (ONE - c / 2.0),
+            ZERO,
+            ZERO,
+        ))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::engine::MixedMode;
+    use approx::assert_relative_eq;
+
+    #[test]
+    fn conversion_is_the_stated_cmrr() {
+        let values = [100.0, 1e-5, 1e3];
+        let amp = IntegratedInAmp {
+            gain: GainSetting::Direct(ParamId(0)),
+            cmrr_reciprocal: Some(ParamId(1)),
+            cmrr_corner_hz: Some(ParamId(2)),
+            bandwidth_hz: None,
+            pins: [PinShunt::default(); 2],
+        };
+        let dc = MixedMode::from_nodes(
+            &amp.transfer(&Point::new(0.0, &values), &Mat2::ZERO)
+                .unwrap(),
+        );
+        assert_relative_eq!(dc.dd.re, 100.0);
+        assert_relative_eq!(dc.conversion().re, 1e-5, max_relative = 1e-12);
+        let high = MixedMode::from_nodes(
+            &amp.transfer(&Point::new(1e5, &values), &Mat2::ZERO)
+                .unwrap(),
+        );
+        assert_relative_eq!(
+            high.conversion().norm(),
+            1e-5 * (1.0f64 + 1e4).sqrt(),
+            max_relative = 1e-9
+        );
+    }
+
+    #[test]
+    fn gain_law() {
+        let values = [499.0];
+        let setting = GainSetting::Resistor {
+            rg: ParamId(0),
+            base: 1.0,
+            constant_ohms: 49.4e3,
+        };
+        assert_relative_eq!(
+            setting.gain(&Point::new(0.0, &values)),
+            1.0 + 49.4e3 / 499.0
+        );
+    }
+}
