@@ -54,7 +54,9 @@ fn sedra_smith_exercise_2_15() {
     // same current out of p as it returns into n.
     let values = b.parameters.nominal_values();
     let point = Point::new(0.0, &values);
-    let y = b.chain[0].kind.input_admittance(&point);
+    let y = b.chain[0]
+        .kind
+        .input_admittance(&point, &cmrr_budget::engine::linalg::Mat2::ZERO);
     // i_p + i_n = 0 with v_p - v_n = 1: solve for v_p.
     let (a, c, d) = (y.0[0][0], y.0[1][0], y.0[1][1]);
     let v_p = d / (a + c + d);
@@ -354,4 +356,147 @@ fn integrated_inamp_block() {
     // A decade above a decade above the corner: ~20 dB lower.
     let high = at(&b, 20e3);
     assert!((db(high.worst_case() / at(&b, 2e3).worst_case()) - 20.0).abs() < 0.05);
+}
+
+fn pair(fields: &str) -> Budget {
+    budget(&format!("  - differential_pair:\n{fields}"))
+}
+
+/// kT/q at 300 K is 25.85 mV (CODATA 2018 constants; the figure quoted in
+/// Gray, Hurst, Lewis and Meyer, Analysis and Design of Analog Integrated
+/// Circuits, 5th ed., 2009, Ch. 1, from memory).
+const VT_300K: f64 = 1.380649e-23 * 300.0 / 1.602176634e-19;
+
+/// Emitter-coupled pair, single-ended output:
+/// Acm = −gm RC / (1 + 2 gm Z_EE (1 + 1/β)), Add = gm RC / 2, so
+/// CMRR = 1/2 + gm Z_EE (1 + 1/β). Gray, Hurst, Lewis and Meyer, 5th ed.,
+/// 2009, Sec. 3.5 (section from memory); exact with r_o → ∞.
+#[test]
+fn pair_single_ended_cmrr() {
+    for (beta, tail) in [(100.0, 10e3), (300.0, 100e3), (50.0, 1e3)] {
+        let b = pair(&format!(
+            "      device: bjt\n      tail_current: 1 mA\n      beta: {beta}\n      early_voltage: 1e12 V\n      load_resistance: 10k\n      output: single_ended\n      tail: {{resistor: {tail}}}\n"
+        ));
+        let analysis = at(&b, 0.0);
+        let ic = 0.5e-3 * beta / (beta + 1.0);
+        let gm = ic / VT_300K;
+        let expected = 0.5 + gm * tail * (1.0 + 1.0 / beta);
+        assert_relative_eq!(
+            1.0 / analysis.nominal_magnitude(),
+            expected,
+            max_relative = 1e-6
+        );
+        assert_relative_eq!(
+            analysis.differential_gain.re,
+            gm * 10e3 / 2.0,
+            max_relative = 1e-6
+        );
+    }
+}
+
+/// Differential output with mismatch: the common-mode-to-differential gain
+/// is −(gm1 RC1 − gm2 RC2) / (1 + Z_EE (gm1 + gm2 + 1/r_π1 + 1/r_π2)), a
+/// signed sum, so CMRR ≈ 2 gm Z_EE / |ΔRC/RC + Δgm/gm| and opposite
+/// mismatches cancel. Sedra and Smith, Microelectronic Circuits, 7th ed.,
+/// 2015, Ch. 9 (RD and gm mismatch, from memory); Razavi, Design of Analog
+/// CMOS Integrated Circuits, 2nd ed., 2017, Sec. 4.3 (from memory).
+#[test]
+fn pair_differential_output_mismatch() {
+    let fields = "      device: small_signal\n      gm: 20 mS\n      r_pi: 5k\n      gm_mismatch: 2 %\n      load_resistance: {p: 9.9k, n: 10.1k}\n      output: differential\n      tail: {output_resistance: 50k}\n";
+    let b = pair(fields);
+    let mut values = b.parameters.nominal_values();
+    let mismatch = b
+        .parameters
+        .iter()
+        .find(|(_, p)| p.name == "gm mismatch")
+        .unwrap()
+        .0;
+    for delta in [0.0, 0.02, -0.02] {
+        values[mismatch.0] = delta;
+        let response = chain_response(&b.chain, &Point::new(0.0, &values)).unwrap();
+        let (gm1, gm2) = (20e-3 * (1.0 + delta / 2.0), 20e-3 * (1.0 - delta / 2.0));
+        let (rc1, rc2) = (9.9e3, 10.1e3);
+        // Output taken as (c2 − c1), so the sign is opposite to (c1 − c2).
+        let expected = (gm1 * rc1 - gm2 * rc2) / (1.0 + 50e3 * (gm1 + gm2 + 2.0 / 5e3));
+        assert_relative_eq!(response.dc.re, expected, epsilon = 1e-12);
+    }
+    // δ = +2 % on gm1 against RC1 2 % low: the products match and cancel.
+    values[mismatch.0] = 0.02;
+    let cancelled = chain_response(&b.chain, &Point::new(0.0, &values)).unwrap();
+    assert!(cancelled.dc.norm() < 2e-4 * 0.02, "{}", cancelled.dc);
+    // RC mismatch alone: CMRR ≈ 2 gm Z_EE / (ΔRC/RC) = 2 × 0.02 × 50k / 0.02 ... to first order.
+    values[mismatch.0] = 0.0;
+    let alone = chain_response(&b.chain, &Point::new(0.0, &values)).unwrap();
+    let cmrr = (alone.dd / alone.dc).norm();
+    let approx = 2.0 * 20e-3 * 50e3 / 0.02;
+    assert_relative_eq!(cmrr, approx, max_relative = 0.05);
+}
+
+/// Above 1/(2π R_out C_tail) the tail's capacitance takes over and the
+/// CMRR falls 20 dB/decade (common practice, no source).
+#[test]
+fn pair_tail_pole() {
+    let b = pair("      device: small_signal\n      gm: 20 mS\n      load_resistance: 10k\n      output: single_ended\n      tail: {output_resistance: 1M, capacitance: 10 pF}\n");
+    let corner = 1.0 / (2.0 * PI * 1e6 * 10e-12);
+    let low = at(&b, corner / 100.0).nominal_magnitude();
+    let high = [10.0, 100.0].map(|k| at(&b, corner * k).nominal_magnitude());
+    assert!((db(high[1] / high[0]) - 20.0).abs() < 0.1);
+    // At the corner itself the conversion has risen by 3 dB.
+    let at_corner = at(&b, corner).nominal_magnitude();
+    assert!(
+        (db(at_corner / low) - 3.01).abs() < 0.05,
+        "{}",
+        db(at_corner / low)
+    );
+}
+
+/// Current-source output resistance: degenerated r_o (1 + gm RE') + RE'
+/// with RE' = RE ∥ r_π, tending to (β + 1) r_o for large RE; BJT cascode
+/// ≈ β r_o; MOSFET cascode ≈ gm r_o². Gray, Hurst, Lewis and Meyer, 5th
+/// ed., 2009, Ch. 4 (from memory).
+#[test]
+fn tail_output_resistance_forms() {
+    use cmrr_budget::stage::StageKind;
+    let tail_of = |tail: &str, device: &str| {
+        let b = pair(&format!(
+            "{device}      load_resistance: 10k\n      output: single_ended\n      tail: {tail}\n"
+        ));
+        let values = b.parameters.nominal_values();
+        let StageKind::DifferentialPair(p) = &b.chain[0].kind else {
+            unreachable!()
+        };
+        p.tail_resistance(&Point::new(0.0, &values))
+    };
+    let bjt = "      device: bjt\n      tail_current: 1 mA\n      beta: 100\n      early_voltage: 100 V\n";
+    let (current, va, beta) = (1e-3, 50.0, 100.0);
+    let ro = va / current;
+    let gm = current / VT_300K;
+    let r_pi = beta / gm;
+    assert_relative_eq!(
+        tail_of("{current_source: {early_voltage: 50 V}}", bjt),
+        ro,
+        max_relative = 1e-12
+    );
+    let re = 1e3;
+    let re_eff = re * r_pi / (re + r_pi);
+    assert_relative_eq!(
+        tail_of(
+            "{degenerated_source: {early_voltage: 50 V, degeneration: 1k, beta: 100}}",
+            bjt
+        ),
+        ro * (1.0 + gm * re_eff) + re_eff,
+        max_relative = 1e-12
+    );
+    let large = tail_of(
+        "{degenerated_source: {early_voltage: 50 V, degeneration: 1G, beta: 100}}",
+        bjt,
+    );
+    assert_relative_eq!(large, (beta + 1.0) * ro, max_relative = 0.01);
+    // β r_o holds when r_o ≫ r_π (here 500 kΩ against 2.6 kΩ: within 1 %).
+    let cascode = tail_of("{cascode: {early_voltage: 500 V, beta: 100}}", bjt);
+    assert_relative_eq!(cascode, beta * 500.0 / current, max_relative = 0.01);
+    let mos = "      device: mosfet\n      tail_current: 1 mA\n      overdrive: 200 mV\n      early_voltage: 20 V\n";
+    let mos_cascode = tail_of("{cascode: {early_voltage: 20 V, overdrive: 200 mV}}", mos);
+    let (gm_mos, ro_mos) = (2.0 * 1e-3 / 0.2, 20.0 / 1e-3);
+    assert_relative_eq!(mos_cascode, gm_mos * ro_mos * ro_mos, max_relative = 0.01);
 }

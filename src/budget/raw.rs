@@ -35,6 +35,7 @@ pub enum RawStage {
     DifferenceAmp(Box<RawDifferenceAmp>),
     ThreeOpampInamp(Box<RawThreeOpAmpInAmp>),
     IntegratedInamp(Box<RawIntegratedInAmp>),
+    DifferentialPair(Box<RawDifferentialPair>),
 }
 
 /// The source network.
@@ -147,6 +148,88 @@ pub struct RawGainLaw {
 pub struct RawCmrrAtGain {
     pub gain: Scalar,
     pub cmrr: Scalar,
+}
+
+/// A discrete long-tailed pair.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawDifferentialPair {
+    #[serde(default)]
+    pub label: Option<String>,
+    pub device: RawPairDevice,
+    #[serde(default)]
+    pub tail_current: Option<Scalar>,
+    #[serde(default)]
+    pub beta: Option<PerLeg>,
+    #[serde(default)]
+    pub early_voltage: Option<PerLeg>,
+    #[serde(default)]
+    pub overdrive: Option<Scalar>,
+    #[serde(default)]
+    pub gm: Option<PerLeg>,
+    #[serde(default)]
+    pub r_pi: Option<PerLeg>,
+    #[serde(default)]
+    pub ro: Option<PerLeg>,
+    #[serde(default)]
+    pub offset: Option<Scalar>,
+    #[serde(default)]
+    pub gm_mismatch: Option<Scalar>,
+    #[serde(default)]
+    pub degeneration: Option<PerLeg>,
+    pub load_resistance: PerLeg,
+    pub output: RawPairOutput,
+    #[serde(default)]
+    pub temperature: Option<Scalar>,
+    pub tail: RawTail,
+}
+
+/// The pair's device type.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RawPairDevice {
+    Bjt,
+    Mosfet,
+    SmallSignal,
+}
+
+/// The pair's output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RawPairOutput {
+    Differential,
+    SingleEnded,
+}
+
+/// The pair's tail: one kind, and its capacitance.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawTail {
+    #[serde(default)]
+    pub resistor: Option<Scalar>,
+    #[serde(default)]
+    pub current_source: Option<RawTailDevice>,
+    #[serde(default)]
+    pub degenerated_source: Option<RawTailDevice>,
+    #[serde(default)]
+    pub cascode: Option<RawTailDevice>,
+    #[serde(default)]
+    pub output_resistance: Option<Scalar>,
+    #[serde(default)]
+    pub capacitance: Option<Scalar>,
+}
+
+/// The transistor(s) making a tail current.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawTailDevice {
+    pub early_voltage: Scalar,
+    #[serde(default)]
+    pub degeneration: Option<Scalar>,
+    #[serde(default)]
+    pub beta: Option<Scalar>,
+    #[serde(default)]
+    pub overdrive: Option<Scalar>,
 }
 
 /// An op-amp's data.

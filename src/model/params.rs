@@ -92,6 +92,14 @@ impl Parameter {
                     Variation::Relative { tolerance } => {
                         format!("{value} ±{}", format_fraction(tolerance))
                     }
+                    Variation::SignedBound { magnitude } if self.nominal == 0.0 => {
+                        let bound = if dimension == Dimension::Fraction {
+                            format_fraction(magnitude)
+                        } else {
+                            format_si(magnitude, dimension.symbol())
+                        };
+                        format!("±{bound}, sign unknown")
+                    }
                     Variation::SignedBound { magnitude } => {
                         format!("{value} ±{}", format_si(magnitude, dimension.symbol()))
                     }

@@ -11,6 +11,8 @@ use std::fmt;
 pub enum Dimension {
     /// Resistance in ohms.
     Resistance,
+    /// Conductance in siemens (a transconductance).
+    Conductance,
     /// Capacitance in farads.
     Capacitance,
     /// Inductance in henries.
@@ -44,6 +46,7 @@ impl Dimension {
     pub fn describe(self) -> &'static str {
         match self {
             Dimension::Resistance => "a resistance (Ω or ohm, e.g. `10k`, `4k7`, `350 Ω`)",
+            Dimension::Conductance => "a conductance (S, e.g. `20 mS`)",
             Dimension::Capacitance => "a capacitance (F, e.g. `4.7 nF`, `100p`)",
             Dimension::Inductance => "an inductance (H, e.g. `10 uH`)",
             Dimension::Frequency => "a frequency (Hz, e.g. `50 Hz`, `10 kHz`, `DC`)",
@@ -66,6 +69,7 @@ impl Dimension {
     pub fn symbol(self) -> &'static str {
         match self {
             Dimension::Resistance => "Ω",
+            Dimension::Conductance => "S",
             Dimension::Capacitance => "F",
             Dimension::Inductance => "H",
             Dimension::Frequency => "Hz",
@@ -100,6 +104,7 @@ impl fmt::Display for Dimension {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         let name = match self {
             Dimension::Resistance => "resistance",
+            Dimension::Conductance => "conductance",
             Dimension::Capacitance => "capacitance",
             Dimension::Inductance => "inductance",
             Dimension::Frequency => "frequency",
@@ -166,6 +171,7 @@ pub(crate) const UNITS: &[UnitSpelling] = &[
     unit("\u{03A9}", Dimension::Resistance, 1.0),
     unit("\u{2126}", Dimension::Resistance, 1.0),
     unit("R", Dimension::Resistance, 1.0),
+    unit("S", Dimension::Conductance, 1.0),
     unit("F/m", Dimension::CapacitancePerLength, 1.0),
     unit("F", Dimension::Capacitance, 1.0),
     unit("H", Dimension::Inductance, 1.0),

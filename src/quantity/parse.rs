@@ -523,6 +523,7 @@ mod tests {
         assert_relative_eq!(value("1 µA", Dimension::Current), 1e-6);
         assert_relative_eq!(value("1 uA", Dimension::Current), 1e-6);
         assert_relative_eq!(value("10 ms", Dimension::Time), 10e-3);
+        assert_relative_eq!(value("20 mS", Dimension::Conductance), 20e-3);
     }
 
     #[test]

@@ -64,7 +64,7 @@ impl DifferenceAmp {
 }
 
 impl StageSolve for DifferenceAmp {
-    fn input_admittance(&self, point: &Point) -> Mat2 {
+    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
         let r1 = point.value(self.r1);
         let r2 = point.value(self.r2);
         let r3 = point.value(self.r3);

@@ -60,7 +60,7 @@ pub struct IntegratedInAmp {
 }
 
 impl StageSolve for IntegratedInAmp {
-    fn input_admittance(&self, point: &Point) -> Mat2 {
+    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
         PinShunt::pair_admittance(&self.pins, point)
     }
 

@@ -15,6 +15,7 @@
 //! file's raw schema and validator to build it (see DEVELOPERS.md).
 
 mod difference_amp;
+mod differential_pair;
 mod integrated_inamp;
 mod opamp;
 mod pins;
@@ -22,6 +23,9 @@ mod source_network;
 mod three_opamp_inamp;
 
 pub use difference_amp::DifferenceAmp;
+pub use differential_pair::{
+    DifferentialPair, PairDevice, PairOutput, PairSmallSignal, Tail, TailKind, K_OVER_Q,
+};
 pub use integrated_inamp::{GainSetting, IntegratedInAmp};
 pub use opamp::OpAmp;
 pub use pins::PinShunt;
@@ -74,9 +78,11 @@ pub struct SingularStage {
 
 /// The exact small-signal behaviour of a stage, in node-voltage form.
 pub trait StageSolve {
-    /// The admittance its input pins present to whatever drives them:
-    /// `[i_p, i_n] = Y [v_p, v_n]`, currents flowing into the pins.
-    fn input_admittance(&self, point: &Point) -> Mat2;
+    /// The admittance its input pins present to whatever drives them,
+    /// `[i_p, i_n] = Y [v_p, v_n]` (currents flowing into the pins), when
+    /// its outputs drive `load`. Stages whose outputs are ideal sources
+    /// ignore the load.
+    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2;
 
     /// The transfer from its input pin voltages to its output node voltages,
     /// given the admittance `load` of what it drives.
@@ -103,6 +109,8 @@ pub enum StageKind {
     ThreeOpAmpInAmp(ThreeOpAmpInAmp),
     /// An instrumentation amplifier as a data-sheet block.
     IntegratedInAmp(IntegratedInAmp),
+    /// A discrete long-tailed pair.
+    DifferentialPair(DifferentialPair),
 }
 
 impl StageKind {
@@ -113,6 +121,7 @@ impl StageKind {
             StageKind::DifferenceAmp(_) => "difference amplifier",
             StageKind::ThreeOpAmpInAmp(_) => "three-op-amp instrumentation amplifier",
             StageKind::IntegratedInAmp(_) => "integrated instrumentation amplifier",
+            StageKind::DifferentialPair(_) => "differential pair",
         }
     }
 
@@ -128,13 +137,14 @@ impl StageKind {
             StageKind::DifferenceAmp(stage) => stage,
             StageKind::ThreeOpAmpInAmp(stage) => stage,
             StageKind::IntegratedInAmp(stage) => stage,
+            StageKind::DifferentialPair(stage) => stage,
         }
     }
 }
 
 impl StageSolve for StageKind {
-    fn input_admittance(&self, point: &Point) -> Mat2 {
-        self.solver().input_admittance(point)
+    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2 {
+        self.solver().input_admittance(point, load)
     }
 
     fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {

@@ -98,7 +98,7 @@ impl StageSolve for SourceNetwork {
     /// The source network is driven by the sensor's ideal EMFs, so nothing
     /// upstream sees its input admittance; it is reported as an open
     /// circuit.
-    fn input_admittance(&self, _point: &Point) -> Mat2 {
+    fn input_admittance(&self, _point: &Point, _load: &Mat2) -> Mat2 {
         Mat2::ZERO
     }
 

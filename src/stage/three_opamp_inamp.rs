@@ -78,7 +78,7 @@ impl ThreeOpAmpInAmp {
 }
 
 impl StageSolve for ThreeOpAmpInAmp {
-    fn input_admittance(&self, point: &Point) -> Mat2 {
+    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
         PinShunt::pair_admittance(&self.pins, point)
     }
 

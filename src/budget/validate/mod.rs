@@ -4,6 +4,7 @@
 
 mod amplifiers;
 mod interference;
+mod pair;
 mod source;
 
 use super::error::Diagnostic;
@@ -298,6 +299,9 @@ impl Validator<'_> {
                 RawStage::ThreeOpampInamp(amp) => self
                     .three_opamp_inamp(amp, &format!("{path}.three_opamp_inamp"), index)
                     .map(|s| (s, amp.label.clone(), "instrumentation amplifier")),
+                RawStage::DifferentialPair(pair) => self
+                    .differential_pair(pair, &format!("{path}.differential_pair"), index)
+                    .map(|s| (s, pair.label.clone(), "differential pair")),
                 RawStage::IntegratedInamp(amp) => self
                     .integrated_inamp(amp, &format!("{path}.integrated_inamp"), index)
                     .map(|s| (s, amp.label.clone(), "integrated in-amp")),

@@ -1,0 +1,403 @@
+//! Validation of the discrete differential pair.
+
+use super::{Range, Validator};
+use crate::budget::raw::{
+    PerLeg, RawDifferentialPair, RawPairDevice, RawPairOutput, RawTail, Scalar,
+};
+use crate::model::{ParamId, Parameter, Presentation, Variation};
+use crate::quantity::Dimension;
+use crate::stage::{DifferentialPair, PairDevice, PairOutput, StageKind, Tail, TailKind};
+
+/// The device temperature when the file gives none, in kelvin; at 300 K,
+/// kT/q = 25.85 mV.
+pub const DEFAULT_DEVICE_TEMPERATURE_K: f64 = 300.0;
+
+impl Validator<'_> {
+    pub(super) fn differential_pair(
+        &mut self,
+        raw: &RawDifferentialPair,
+        path: &str,
+        stage: usize,
+    ) -> Option<StageKind> {
+        let problems_before = self.problems.len();
+        let field = |name: &str| format!("{path}.{name}");
+        // Which fields each device type takes.
+        let (needs, refuses): (&[&str], &[&str]) = match raw.device {
+            RawPairDevice::Bjt => (
+                &["tail_current", "beta", "early_voltage"],
+                &["overdrive", "gm", "r_pi", "ro"],
+            ),
+            RawPairDevice::Mosfet => (
+                &["tail_current", "overdrive", "early_voltage"],
+                &["beta", "gm", "r_pi", "ro"],
+            ),
+            RawPairDevice::SmallSignal => {
+                (&["gm"], &["beta", "early_voltage", "overdrive", "offset"])
+            }
+        };
+        let given = |name: &str| match name {
+            "tail_current" => raw.tail_current.is_some(),
+            "beta" => raw.beta.is_some(),
+            "early_voltage" => raw.early_voltage.is_some(),
+            "overdrive" => raw.overdrive.is_some(),
+            "gm" => raw.gm.is_some(),
+            "r_pi" => raw.r_pi.is_some(),
+            "ro" => raw.ro.is_some(),
+            "offset" => raw.offset.is_some(),
+            _ => false,
+        };
+        let device_name = match raw.device {
+            RawPairDevice::Bjt => "bjt",
+            RawPairDevice::Mosfet => "mosfet",
+            RawPairDevice::SmallSignal => "small_signal",
+        };
+        for name in needs.iter().filter(|n| !given(n)) {
+            self.problem(
+                path,
+                format!("a `{device_name}` pair needs `{name}`"),
+                format!("add `{name}: …` (see the README's differential pair fields)"),
+            );
+        }
+        for name in refuses.iter().filter(|n| given(n)) {
+            self.problem(
+                &field(name),
+                format!("`{name}` does not apply to a `{device_name}` pair"),
+                match raw.device {
+                    RawPairDevice::SmallSignal => "remove it: with `device: small_signal` give gm, r_pi and ro directly, and any mismatch as `gm_mismatch`".to_string(),
+                    _ => "remove it, or choose the device type it belongs to".to_string(),
+                },
+            );
+        }
+        if self.problems.len() > problems_before {
+            return None;
+        }
+        let tail_current = raw.tail_current.as_ref().and_then(|c| {
+            self.part(
+                c,
+                &field("tail_current"),
+                Dimension::Current,
+                "tail current".into(),
+                stage,
+            )
+        });
+        let legs = |this: &mut Self,
+                    value: &Option<PerLeg>,
+                    name: &str,
+                    dimension: Dimension,
+                    label: &str| {
+            this.optional_leg_parts(value, &field(name), dimension, label, stage)
+        };
+        let device = match raw.device {
+            RawPairDevice::Bjt => {
+                let beta = legs(self, &raw.beta, "beta", Dimension::Gain, "β");
+                let early = legs(
+                    self,
+                    &raw.early_voltage,
+                    "early_voltage",
+                    Dimension::Voltage,
+                    "Early voltage",
+                );
+                match (beta, early) {
+                    ([Some(b0), Some(b1)], [Some(e0), Some(e1)]) => Some(PairDevice::Bjt {
+                        beta: [b0, b1],
+                        early_voltage: [e0, e1],
+                    }),
+                    _ => None,
+                }
+            }
+            RawPairDevice::Mosfet => {
+                let overdrive = raw.overdrive.as_ref().and_then(|o| {
+                    self.part(
+                        o,
+                        &field("overdrive"),
+                        Dimension::Voltage,
+                        "overdrive".into(),
+                        stage,
+                    )
+                });
+                let early = legs(
+                    self,
+                    &raw.early_voltage,
+                    "early_voltage",
+                    Dimension::Voltage,
+                    "Early voltage",
+                );
+                match (overdrive, early) {
+                    (Some(overdrive), [Some(e0), Some(e1)]) => Some(PairDevice::Mosfet {
+                        overdrive,
+                        early_voltage: [e0, e1],
+                    }),
+                    _ => None,
+                }
+            }
+            RawPairDevice::SmallSignal => {
+                let gm = legs(self, &raw.gm, "gm", Dimension::Conductance, "gm");
+                let r_pi = legs(self, &raw.r_pi, "r_pi", Dimension::Resistance, "r_π");
+                let ro = legs(self, &raw.ro, "ro", Dimension::Resistance, "r_o");
+                match gm {
+                    [Some(g0), Some(g1)] => Some(PairDevice::SmallSignal {
+                        gm: [g0, g1],
+                        r_pi,
+                        ro,
+                    }),
+                    _ => None,
+                }
+            }
+        };
+        let offset = raw.offset.as_ref().and_then(|o| {
+            let q = self.quantity(
+                o,
+                &field("offset"),
+                Dimension::Voltage,
+                Range::Positive,
+                false,
+            )?;
+            Some(self.signed_bound(
+                q.value,
+                &field("offset"),
+                stage,
+                "input offset",
+                Dimension::Voltage,
+            ))
+        });
+        let gm_mismatch = raw.gm_mismatch.as_ref().and_then(|m| {
+            let q = self.quantity(
+                m,
+                &field("gm_mismatch"),
+                Dimension::Fraction,
+                Range::Positive,
+                false,
+            )?;
+            Some(self.signed_bound(
+                q.value,
+                &field("gm_mismatch"),
+                stage,
+                "gm mismatch",
+                Dimension::Fraction,
+            ))
+        });
+        let degeneration = legs(
+            self,
+            &raw.degeneration,
+            "degeneration",
+            Dimension::Resistance,
+            "RE",
+        );
+        let load = self.leg_parts(
+            &raw.load_resistance,
+            &field("load_resistance"),
+            Dimension::Resistance,
+            "RC",
+            stage,
+        );
+        let temperature_k = match &raw.temperature {
+            Some(t) => self
+                .quantity(
+                    t,
+                    &field("temperature"),
+                    Dimension::Temperature,
+                    Range::Positive,
+                    false,
+                )
+                .map_or(DEFAULT_DEVICE_TEMPERATURE_K, |q| q.value),
+            None => DEFAULT_DEVICE_TEMPERATURE_K,
+        };
+        let tail = self.tail(
+            &raw.tail,
+            &field("tail"),
+            stage,
+            raw.device,
+            tail_current.is_some(),
+        );
+        if self.problems.len() > problems_before {
+            return None;
+        }
+        Some(StageKind::DifferentialPair(DifferentialPair {
+            device: device?,
+            tail_current,
+            offset,
+            gm_mismatch,
+            degeneration,
+            load: [load[0]?, load[1]?],
+            tail: tail?,
+            output: match raw.output {
+                RawPairOutput::Differential => PairOutput::Differential,
+                RawPairOutput::SingleEnded => PairOutput::SingleEnded,
+            },
+            temperature_k,
+        }))
+    }
+
+    /// A bound of unknown sign around zero.
+    fn signed_bound(
+        &mut self,
+        magnitude: f64,
+        path: &str,
+        stage: usize,
+        name: &str,
+        dimension: Dimension,
+    ) -> ParamId {
+        self.parameters.add(Parameter {
+            name: name.into(),
+            stage,
+            field: path.into(),
+            nominal: 0.0,
+            variation: Variation::SignedBound { magnitude },
+            presentation: Presentation::Value(dimension),
+        })
+    }
+
+    fn tail(
+        &mut self,
+        raw: &RawTail,
+        path: &str,
+        stage: usize,
+        device: RawPairDevice,
+        has_current: bool,
+    ) -> Option<Tail> {
+        let field = |name: &str| format!("{path}.{name}");
+        let kinds = [
+            raw.resistor.is_some(),
+            raw.current_source.is_some(),
+            raw.degenerated_source.is_some(),
+            raw.cascode.is_some(),
+            raw.output_resistance.is_some(),
+        ];
+        if kinds.iter().filter(|k| **k).count() != 1 {
+            self.problem(
+                path,
+                "the tail needs exactly one of `resistor`, `current_source`, `degenerated_source`, `cascode` or `output_resistance`",
+                "keep one, e.g. `tail: {resistor: 10k ±1 %, capacitance: 2 pF}`",
+            );
+            return None;
+        }
+        let capacitance = raw.capacitance.as_ref().and_then(|c| {
+            self.part(
+                c,
+                &field("capacitance"),
+                Dimension::Capacitance,
+                "tail C".into(),
+                stage,
+            )
+        });
+        let resistance = |this: &mut Self, scalar: &Scalar, name: &str, label: &str| {
+            this.part(
+                scalar,
+                &field(name),
+                Dimension::Resistance,
+                label.into(),
+                stage,
+            )
+        };
+        let kind = if let Some(r) = &raw.resistor {
+            TailKind::Resistor(resistance(self, r, "resistor", "tail R")?)
+        } else if let Some(r) = &raw.output_resistance {
+            TailKind::OutputResistance(resistance(self, r, "output_resistance", "tail R_out")?)
+        } else {
+            let (name, source) = [
+                ("current_source", &raw.current_source),
+                ("degenerated_source", &raw.degenerated_source),
+                ("cascode", &raw.cascode),
+            ]
+            .into_iter()
+            .find_map(|(name, source)| source.as_ref().map(|s| (name, s)))?;
+            let device_path = field(name);
+            if !has_current {
+                self.problem(
+                    &device_path,
+                    "a transistor tail needs the pair's `tail_current`",
+                    "add `tail_current: …` to the pair",
+                );
+                return None;
+            }
+            let early_voltage = self.part(
+                &source.early_voltage,
+                &format!("{device_path}.early_voltage"),
+                Dimension::Voltage,
+                "tail Early voltage".into(),
+                stage,
+            )?;
+            let beta = source.beta.as_ref().and_then(|b| {
+                self.part(
+                    b,
+                    &format!("{device_path}.beta"),
+                    Dimension::Gain,
+                    "tail β".into(),
+                    stage,
+                )
+            });
+            let overdrive = source.overdrive.as_ref().and_then(|o| {
+                self.part(
+                    o,
+                    &format!("{device_path}.overdrive"),
+                    Dimension::Voltage,
+                    "tail overdrive".into(),
+                    stage,
+                )
+            });
+            if name != "degenerated_source" && source.degeneration.is_some() {
+                self.problem(
+                    &format!("{device_path}.degeneration"),
+                    "`degeneration` belongs to a `degenerated_source` tail",
+                    "remove it, or use `degenerated_source`",
+                );
+                return None;
+            }
+            let needs_device = name != "current_source";
+            if needs_device {
+                let expected = match device {
+                    RawPairDevice::Bjt => Some("beta"),
+                    RawPairDevice::Mosfet => Some("overdrive"),
+                    RawPairDevice::SmallSignal => None,
+                };
+                let ok = match expected {
+                    Some("beta") => beta.is_some() && overdrive.is_none(),
+                    Some(_) => overdrive.is_some() && beta.is_none(),
+                    None => beta.is_some() != overdrive.is_some(),
+                };
+                if !ok {
+                    self.problem(
+                        &device_path,
+                        "this tail's transistor needs its `beta` (a BJT) or its `overdrive` (a MOSFET), matching the pair's devices",
+                        match expected {
+                            Some(field) => format!("add `{field}: …` to the tail transistor, and nothing of the other kind"),
+                            None => "add exactly one of `beta` or `overdrive`".to_string(),
+                        },
+                    );
+                    return None;
+                }
+            }
+            match name {
+                "current_source" => TailKind::CurrentSource { early_voltage },
+                "degenerated_source" => {
+                    let Some(re) = &source.degeneration else {
+                        self.problem(
+                            &device_path,
+                            "a degenerated source needs its `degeneration` resistor",
+                            "add `degeneration: …`, or use `current_source`",
+                        );
+                        return None;
+                    };
+                    let degeneration = resistance(
+                        self,
+                        re,
+                        &format!("{name}.degeneration"),
+                        "tail degeneration",
+                    )?;
+                    TailKind::Degenerated {
+                        early_voltage,
+                        degeneration,
+                        beta,
+                        overdrive,
+                    }
+                }
+                _ => TailKind::Cascode {
+                    early_voltage,
+                    beta,
+                    overdrive,
+                },
+            }
+        };
+        Some(Tail { kind, capacitance })
+    }
+}
