@@ -73,6 +73,21 @@ enum Amplifier {
         bandwidth: f64,
         pins: Pins,
     },
+    Pair(PairData),
+}
+
+#[derive(Debug)]
+struct PairData {
+    gm: [f64; 2],
+    r_pi: Option<[f64; 2]>,
+    ro: Option<[f64; 2]>,
+    degeneration: Option<[f64; 2]>,
+    load: [f64; 2],
+    tail_r: f64,
+    tail_c: f64,
+    differential: bool,
+    /// A difference amplifier after the pair, loading its collectors.
+    follower: Option<DifferenceData>,
 }
 
 fn log_uniform(rng: &mut StdRng, low: f64, high: f64) -> f64 {
@@ -140,7 +155,18 @@ fn random_instance(rng: &mut StdRng, trial: usize) -> Instance {
         input_c: pair(rng, 1e-12, 20e-12, 0.3),
         differential: log_uniform(rng, 1e-9, 100e-9),
     });
-    let amplifier = match trial % 3 {
+    let amplifier = match trial % 4 {
+        3 => Amplifier::Pair(PairData {
+            gm: pair(rng, 1e-3, 100e-3, 0.1),
+            r_pi: rng.random_bool(0.7).then(|| pair(rng, 1e3, 100e3, 0.2)),
+            ro: rng.random_bool(0.7).then(|| pair(rng, 10e3, 1e6, 0.2)),
+            degeneration: rng.random_bool(0.5).then(|| pair(rng, 10.0, 1e3, 0.05)),
+            load: pair(rng, 1e3, 50e3, 0.05),
+            tail_r: log_uniform(rng, 1e3, 10e6),
+            tail_c: log_uniform(rng, 0.1e-12, 100e-12),
+            differential: rng.random_bool(0.5),
+            follower: rng.random_bool(0.5).then(|| random_difference(rng)),
+        }),
         0 => Amplifier::Difference(random_difference(rng)),
         1 => {
             let rf = log_uniform(rng, 5e3, 50e3);
@@ -291,6 +317,30 @@ fn budget_text(instance: &Instance) -> String {
             ));
             text.push_str(&pins_text(pins));
         }
+        Amplifier::Pair(p) => {
+            text.push_str("  - differential_pair:\n      device: small_signal\n");
+            text.push_str(&format!("      gm: {}\n", legs(p.gm, "S")));
+            if let Some(r_pi) = p.r_pi {
+                text.push_str(&format!("      r_pi: {}\n", legs(r_pi, "")));
+            }
+            if let Some(ro) = p.ro {
+                text.push_str(&format!("      ro: {}\n", legs(ro, "")));
+            }
+            if let Some(re) = p.degeneration {
+                text.push_str(&format!("      degeneration: {}\n", legs(re, "")));
+            }
+            text.push_str(&format!(
+                "      load_resistance: {}\n      output: {}\n      tail: {{output_resistance: {}, capacitance: {}}}\n",
+                legs(p.load, ""),
+                if p.differential { "differential" } else { "single_ended" },
+                v(p.tail_r),
+                v(p.tail_c)
+            ));
+            if let Some(d) = &p.follower {
+                text.push_str("  - difference_amp:\n");
+                text.push_str(&difference_text(d, "      "));
+            }
+        }
     }
     text.push_str("interference:\n  - {name: hum, amplitude: 1 V rms, frequency: 50 Hz}\n");
     text
@@ -313,6 +363,10 @@ fn overrides(instance: &Instance) -> HashMap<&'static str, f64> {
         Amplifier::Integrated { inverse_cmrr, .. } => {
             HashMap::from([("in-amp CMRR", *inverse_cmrr)])
         }
+        Amplifier::Pair(p) => match &p.follower {
+            Some(d) => HashMap::from([("op-amp CMRR", d.opamp.inverse_cmrr)]),
+            None => HashMap::new(),
+        },
     }
 }
 
@@ -460,7 +514,7 @@ fn reference_output(instance: &Instance, freq: f64, e: [C; 2]) -> C {
         }
     };
     let out = match &instance.amplifier {
-        Amplifier::Difference(d) => difference_stage(&mut mna, d, pin_p, pin_n, freq),
+        Amplifier::Difference(d) => (difference_stage(&mut mna, d, pin_p, pin_n, freq), None),
         Amplifier::ThreeOpAmp {
             rg,
             rf,
@@ -475,7 +529,7 @@ fn reference_output(instance: &Instance, freq: f64, e: [C; 2]) -> C {
             mna.admittance(y1, y2, C::new(1.0 / rg, 0.0));
             mna.opamp(o1, pin_p, y1, &first[0], freq);
             mna.opamp(o2, pin_n, y2, &first[1], freq);
-            difference_stage(&mut mna, difference, o1, o2, freq)
+            (difference_stage(&mut mna, difference, o1, o2, freq), None)
         }
         Amplifier::Integrated {
             gain,
@@ -493,10 +547,55 @@ fn reference_output(instance: &Instance, freq: f64, e: [C; 2]) -> C {
                 C::new(0.0, 0.0),
                 &[(pin_p, g * (1.0 + c / 2.0)), (pin_n, -g * (1.0 - c / 2.0))],
             );
-            out
+            (out, None)
+        }
+        Amplifier::Pair(p) => {
+            let tail = mna.node();
+            let collectors = [mna.node(), mna.node()];
+            for (side, base) in [pin_p, pin_n].into_iter().enumerate() {
+                let c = collectors[side];
+                let e = match p.degeneration {
+                    Some(re) => {
+                        let e = mna.node();
+                        mna.admittance(e, tail, C::new(1.0 / re[side], 0.0));
+                        e
+                    }
+                    None => tail,
+                };
+                // Controlled current gm (v_b − v_e) from collector to emitter.
+                let gm = C::new(p.gm[side], 0.0);
+                mna.matrix[(c, base)] += gm;
+                mna.matrix[(c, e)] -= gm;
+                mna.matrix[(e, base)] -= gm;
+                mna.matrix[(e, e)] += gm;
+                if let Some(r_pi) = p.r_pi {
+                    mna.admittance(base, e, C::new(1.0 / r_pi[side], 0.0));
+                }
+                if let Some(ro) = p.ro {
+                    mna.admittance(c, e, C::new(1.0 / ro[side], 0.0));
+                }
+                mna.admittance(c, GROUND, C::new(1.0 / p.load[side], 0.0));
+            }
+            mna.admittance(tail, GROUND, 1.0 / p.tail_r + s * p.tail_c);
+            let (out_p, out_n) = (collectors[1], collectors[0]);
+            match (&p.follower, p.differential) {
+                (Some(d), true) => (difference_stage(&mut mna, d, out_p, out_n, freq), None),
+                (Some(d), false) => {
+                    // Single-ended: the follower's n input sits at ground.
+                    let ground_node = mna.node();
+                    mna.voltage_source(ground_node, C::new(0.0, 0.0), &[]);
+                    (
+                        difference_stage(&mut mna, d, out_p, ground_node, freq),
+                        None,
+                    )
+                }
+                (None, true) => (out_p, Some(out_n)),
+                (None, false) => (out_p, None),
+            }
         }
     };
-    mna.solve()[out]
+    let solution = mna.solve();
+    solution[out.0] - out.1.map_or(C::new(0.0, 0.0), |n| solution[n])
 }
 
 #[test]
