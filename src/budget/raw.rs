@@ -25,6 +25,47 @@ pub struct RawBudget {
     pub requirement: Option<RawRequirement>,
     #[serde(default)]
     pub extra_frequencies: Vec<Scalar>,
+    #[serde(default)]
+    pub temperature: Option<RawTemperature>,
+    #[serde(default)]
+    pub measurand: Option<RawMeasurand>,
+}
+
+/// The measured quantity, to express errors in its units.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawMeasurand {
+    pub unit: String,
+    #[serde(default)]
+    pub volts_per_unit: Option<Scalar>,
+    #[serde(default)]
+    pub bridge: Option<RawBridgeRating>,
+}
+
+/// A bridge sensor's rating: output per volt of excitation at capacity.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawBridgeRating {
+    pub sensitivity: Scalar,
+    pub excitation: Scalar,
+    pub capacity: Scalar,
+}
+
+/// The operating temperature range.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawTemperature {
+    pub reference: Scalar,
+    pub range: Vec<Scalar>,
+}
+
+/// Temperature coefficients of a stage's resistors: separate parts each
+/// within ±`tcr`, or one matched network.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawNetwork {
+    pub tcr: Scalar,
+    pub tracking: Scalar,
 }
 
 /// One stage, written as a map with a single key naming its kind.
@@ -36,6 +77,25 @@ pub enum RawStage {
     ThreeOpampInamp(Box<RawThreeOpAmpInAmp>),
     IntegratedInamp(Box<RawIntegratedInAmp>),
     DifferentialPair(Box<RawDifferentialPair>),
+    Adc(Box<RawAdc>),
+}
+
+/// A differential-input converter.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawAdc {
+    #[serde(default)]
+    pub label: Option<String>,
+    pub span: Scalar,
+    pub bits: u32,
+    #[serde(default)]
+    pub cmrr: Option<Scalar>,
+    #[serde(default)]
+    pub cmrr_corner: Option<Scalar>,
+    #[serde(default)]
+    pub input_resistance: Option<PerLeg>,
+    #[serde(default)]
+    pub input_capacitance: Option<PerLeg>,
 }
 
 /// The source network.
@@ -88,6 +148,10 @@ pub struct RawDifferenceAmp {
     pub reference_resistance: Option<Scalar>,
     #[serde(default)]
     pub opamp: Option<RawOpAmp>,
+    #[serde(default)]
+    pub tcr: Option<Scalar>,
+    #[serde(default)]
+    pub network: Option<RawNetwork>,
 }
 
 /// The three-op-amp instrumentation amplifier.
@@ -105,6 +169,8 @@ pub struct RawThreeOpAmpInAmp {
     pub input_capacitance: Option<PerLeg>,
     #[serde(default)]
     pub first_stage_opamps: Option<RawOpAmp>,
+    #[serde(default)]
+    pub tcr: Option<Scalar>,
     pub difference_stage: RawDifferenceAmp,
 }
 

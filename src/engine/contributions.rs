@@ -115,9 +115,20 @@ impl PointAnalysis {
     }
 }
 
-/// Analyse the budget's chain at `freq_hz`.
+/// Analyse the budget's chain at `freq_hz` at the reference temperature.
 pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, EngineError> {
-    let mut values = budget.parameters.nominal_values();
+    analyse_point_at(budget, freq_hz, 0.0)
+}
+
+/// Analyse the budget's chain at `freq_hz`, `delta_t` kelvin from the
+/// reference temperature (temperature coefficients then contribute).
+pub fn analyse_point_at(
+    budget: &Budget,
+    freq_hz: f64,
+    delta_t: f64,
+) -> Result<PointAnalysis, EngineError> {
+    let parameters = &budget.parameters;
+    let mut values = parameters.values_at(delta_t);
     let nominal_response = chain_response(&budget.chain, &Point::new(freq_hz, &values))?;
     let nominal = nominal_response.conversion();
     // Each varying parameter at each of its extremes, alone.
@@ -129,11 +140,13 @@ pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, Eng
         let mut deviations = [(0.0, C64::new(0.0, 0.0)); 2];
         for (slot, extreme) in deviations.iter_mut().zip(extremes) {
             values[id.0] = extreme;
+            parameters.resolve(&mut values, delta_t);
             let conversion =
                 chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
             *slot = (extreme, conversion - nominal);
         }
         values[id.0] = parameter.nominal;
+        parameters.resolve(&mut values, delta_t);
         swings.push((id, deviations));
     }
     // A contribution is the larger of the two swings.
@@ -162,7 +175,6 @@ pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, Eng
             .total_cmp(&contributions[a].deviation.norm())
     });
     let mut running = nominal;
-    let mut corner_contributions = contributions.clone();
     for index in order {
         let (id, [low, high]) = swings[index];
         let (value, deviation) = if (running + high.1).norm() >= (running + low.1).norm() {
@@ -172,12 +184,8 @@ pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, Eng
         };
         running += deviation;
         values[id.0] = value;
-        corner_contributions[index] = Contribution {
-            param: id,
-            value,
-            deviation,
-        };
     }
+    parameters.resolve(&mut values, delta_t);
     let corner = chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
     Ok(PointAnalysis {
         freq_hz,

@@ -7,6 +7,8 @@ mod contributions;
 pub mod linalg;
 mod mixed_mode;
 
-pub use chain::{chain_response, EngineError};
-pub use contributions::{analyse_point, Contribution, PointAnalysis, RESOLUTION_FLOOR};
+pub use chain::{chain_response, EngineError, MAX_STAGES};
+pub use contributions::{
+    analyse_point, analyse_point_at, Contribution, PointAnalysis, RESOLUTION_FLOOR,
+};
 pub use mixed_mode::MixedMode;

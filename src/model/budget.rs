@@ -23,6 +23,41 @@ pub struct Budget {
     pub extra_frequencies_hz: Vec<f64>,
     /// Facts that call for safety cautions.
     pub safety: Safety,
+    /// The operating temperature range, when given.
+    pub temperature: Option<TemperatureRange>,
+    /// The measured quantity, when given.
+    pub measurand: Option<Measurand>,
+}
+
+/// The quantity the sensor measures, to express errors in its units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Measurand {
+    /// Its unit as the user writes it (`kg`, `K`, `A`).
+    pub unit: String,
+    /// Volts at the sensor's output per unit of the quantity.
+    pub volts_per_unit: f64,
+}
+
+/// The operating temperature range and the reference temperature at which
+/// part values are stated.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TemperatureRange {
+    /// Where the values hold as written, in kelvin.
+    pub reference_k: f64,
+    /// The coldest operating temperature, in kelvin.
+    pub low_k: f64,
+    /// The hottest operating temperature, in kelvin.
+    pub high_k: f64,
+}
+
+impl TemperatureRange {
+    /// The excursions from the reference to each end of the range, in K.
+    pub fn excursions(&self) -> [f64; 2] {
+        [
+            self.low_k - self.reference_k,
+            self.high_k - self.reference_k,
+        ]
+    }
 }
 
 /// An amplitude of a common-mode voltage or of an allowed error.

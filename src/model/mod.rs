@@ -5,7 +5,7 @@ mod budget;
 mod params;
 
 pub use budget::{
-    describe_volts, Amplitude, Budget, ErrorLimit, Interference, Judgement, MinimumCmrr,
-    Requirement, Safety,
+    describe_volts, Amplitude, Budget, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr,
+    Requirement, Safety, TemperatureRange,
 };
-pub use params::{ParamId, Parameter, Parameters, Presentation, Variation};
+pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

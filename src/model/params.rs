@@ -30,6 +30,9 @@ pub enum Variation {
         /// The bound on the magnitude.
         magnitude: f64,
     },
+    /// Computed from other parameters by a [`Derivation`]; never varied
+    /// itself.
+    Derived,
 }
 
 /// How a parameter is shown to the user.
@@ -62,7 +65,7 @@ impl Parameter {
     /// The two extreme values it can take, or `None` when it is fixed.
     pub fn extremes(&self) -> Option<[f64; 2]> {
         match self.variation {
-            Variation::Fixed => None,
+            Variation::Fixed | Variation::Derived => None,
             Variation::Relative { tolerance } => Some([
                 self.nominal * (1.0 - tolerance),
                 self.nominal * (1.0 + tolerance),
@@ -103,17 +106,33 @@ impl Parameter {
                     Variation::SignedBound { magnitude } => {
                         format!("{value} ±{}", format_si(magnitude, dimension.symbol()))
                     }
-                    Variation::Fixed => value,
+                    Variation::Fixed | Variation::Derived => value,
                 }
             }
         }
     }
 }
 
+/// A parameter that follows temperature:
+/// `target = base × (1 + Σ coefficient_k × ΔT)`, ΔT being the excursion
+/// from the budget's reference temperature. A resistor's value with its own
+/// and its network's temperature coefficients, or a device temperature
+/// (coefficient 1/T_ref), are derived this way.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Derivation {
+    /// The derived parameter.
+    pub target: ParamId,
+    /// Its value at the reference temperature.
+    pub base: ParamId,
+    /// Temperature coefficients (1/K) that apply to it.
+    pub coefficients: Vec<ParamId>,
+}
+
 /// All parameters of a budget, in the order the stages declared them.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct Parameters {
     list: Vec<Parameter>,
+    derivations: Vec<Derivation>,
 }
 
 impl Parameters {
@@ -148,9 +167,48 @@ impl Parameters {
         self.list.is_empty()
     }
 
-    /// The nominal values, indexed by [`ParamId`].
+    /// Add a derived parameter (its `variation` must be
+    /// [`Variation::Derived`]) and the rule that computes it.
+    pub fn add_derived(
+        &mut self,
+        parameter: Parameter,
+        base: ParamId,
+        coefficients: Vec<ParamId>,
+    ) -> ParamId {
+        let target = self.add(parameter);
+        self.derivations.push(Derivation {
+            target,
+            base,
+            coefficients,
+        });
+        target
+    }
+
+    /// Whether any parameter follows temperature.
+    pub fn has_derivations(&self) -> bool {
+        !self.derivations.is_empty()
+    }
+
+    /// Recompute every derived value from the others at a temperature
+    /// excursion `delta_t` (kelvin from the reference).
+    pub fn resolve(&self, values: &mut [f64], delta_t: f64) {
+        for derivation in &self.derivations {
+            let coefficient: f64 = derivation.coefficients.iter().map(|c| values[c.0]).sum();
+            values[derivation.target.0] = values[derivation.base.0] * (1.0 + coefficient * delta_t);
+        }
+    }
+
+    /// The nominal values at a temperature excursion `delta_t`, indexed by
+    /// [`ParamId`].
+    pub fn values_at(&self, delta_t: f64) -> Vec<f64> {
+        let mut values: Vec<f64> = self.list.iter().map(|p| p.nominal).collect();
+        self.resolve(&mut values, delta_t);
+        values
+    }
+
+    /// The nominal values at the reference temperature.
     pub fn nominal_values(&self) -> Vec<f64> {
-        self.list.iter().map(|p| p.nominal).collect()
+        self.values_at(0.0)
     }
 }
 

@@ -1,41 +1,81 @@
 //! Building the report from a validated budget.
 
 use super::cautions::cautions;
+use super::checks::{cmrr_checks, error_check, outcome, same_frequency};
+use super::facts::{facts, remarks};
 use super::{
-    Check, ContributionKind, ContributionRow, Corner, Db, FrequencyResult, Report,
-    RequirementOutcome, SourceResult, Totals, Verdict, SCHEMA_VERSION,
+    ContributionKind, ContributionRow, Corner, Db, FrequencyResult, Report, SourceResult,
+    TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
-use crate::engine::{analyse_point, EngineError, PointAnalysis};
-use crate::model::describe_volts;
-use crate::model::{
-    Amplitude, Budget, ErrorLimit, Interference, Parameter, Presentation, Requirement, Variation,
-};
-use crate::quantity::{format_db, format_fraction, format_si, Dimension};
-use crate::stage::{OpAmp, StageKind};
+use crate::engine::{analyse_point_at, EngineError, PointAnalysis};
+use crate::model::{Amplitude, Budget, Interference, Presentation, Requirement};
+use crate::quantity::Dimension;
+use crate::stage::StageKind;
 
-/// Two frequencies closer than this (relative) are the same point.
-const SAME_FREQUENCY: f64 = 1e-9;
+/// The analyses at one frequency: at the reference temperature, and at the
+/// worse end of the temperature range when there is one.
+#[derive(Debug, Clone)]
+struct Analyses {
+    reference: PointAnalysis,
+    worse_end: Option<(f64, PointAnalysis)>,
+}
 
-fn same_frequency(a: f64, b: f64) -> bool {
-    (a - b).abs() <= SAME_FREQUENCY * a.abs().max(b.abs()).max(1.0)
+impl Analyses {
+    fn new(budget: &Budget, freq_hz: f64) -> Result<Analyses, EngineError> {
+        let reference = analyse_point_at(budget, freq_hz, 0.0)?;
+        let worse_end = match budget.temperature {
+            Some(range) => {
+                let [cold, hot] = range.excursions();
+                let cold_analysis = analyse_point_at(budget, freq_hz, cold)?;
+                let hot_analysis = analyse_point_at(budget, freq_hz, hot)?;
+                Some(if hot_analysis.worst_case() >= cold_analysis.worst_case() {
+                    (range.high_k, hot_analysis)
+                } else {
+                    (range.low_k, cold_analysis)
+                })
+            }
+            None => None,
+        };
+        Ok(Analyses {
+            reference,
+            worse_end,
+        })
+    }
+
+    /// The conversion totals a requirement is judged on: the worse of the
+    /// reference temperature and the worse end of the range.
+    fn judged_conversion(&self) -> Totals<f64> {
+        let reference = conversion_totals(&self.reference);
+        match &self.worse_end {
+            Some((_, hot)) => {
+                let hot = conversion_totals(hot);
+                Totals {
+                    worst_case: reference.worst_case.max(hot.worst_case),
+                    rss: reference.rss.max(hot.rss),
+                    nominal: reference.nominal.max(hot.nominal),
+                }
+            }
+            None => reference,
+        }
+    }
 }
 
 /// Analyse `budget` at every frequency it names and assemble the report.
 pub fn build_report(budget: &Budget) -> Result<Report, EngineError> {
-    let mut analyses: Vec<PointAnalysis> = Vec::new();
-    let mut analysis_at = |freq: f64| -> Result<PointAnalysis, EngineError> {
-        if let Some(found) = analyses.iter().find(|a| same_frequency(a.freq_hz, freq)) {
+    let mut cache: Vec<(f64, Analyses)> = Vec::new();
+    let mut analyses_at = |freq: f64| -> Result<Analyses, EngineError> {
+        if let Some((_, found)) = cache.iter().find(|(f, _)| same_frequency(*f, freq)) {
             return Ok(found.clone());
         }
-        let analysis = analyse_point(budget, freq)?;
-        analyses.push(analysis.clone());
-        Ok(analysis)
+        let analyses = Analyses::new(budget, freq)?;
+        cache.push((freq, analyses.clone()));
+        Ok(analyses)
     };
     let requirement = budget.requirement.as_ref();
     let mut results = Vec::new();
     for source in &budget.interference {
-        let analysis = analysis_at(source.frequency_hz)?;
-        results.push(source_result(budget, source, &analysis, requirement));
+        let analyses = analyses_at(source.frequency_hz)?;
+        results.push(source_result(budget, source, &analyses, requirement));
     }
     let mut extra: Vec<f64> = requirement
         .map(|r| r.min_cmrr.iter().map(|m| m.frequency_hz).collect())
@@ -53,8 +93,8 @@ pub fn build_report(budget: &Budget) -> Result<Report, EngineError> {
         if covered {
             continue;
         }
-        let analysis = analysis_at(freq)?;
-        frequencies.push(frequency_result(budget, &analysis, requirement));
+        let analyses = analyses_at(freq)?;
+        frequencies.push(frequency_result(budget, &analyses, requirement));
     }
     frequencies.sort_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz));
     let margins: Vec<Db> = results
@@ -73,6 +113,8 @@ pub fn build_report(budget: &Budget) -> Result<Report, EngineError> {
         notes: budget.notes.clone(),
         cautions: cautions(budget),
         remarks: remarks(budget),
+        facts: facts(budget),
+        measurand_unit: budget.measurand.as_ref().map(|m| m.unit.clone()),
         results,
         frequencies,
         verdict,
@@ -80,7 +122,9 @@ pub fn build_report(budget: &Budget) -> Result<Report, EngineError> {
 }
 
 /// Contribution rows, largest first, with the error each leaves when an
-/// amplitude is given (volts in the amplitude's own form).
+/// amplitude is given (volts in the amplitude's own form). Temperature
+/// coefficients that contribute nothing (at the reference temperature) are
+/// left out.
 fn contribution_rows(
     budget: &Budget,
     analysis: &PointAnalysis,
@@ -105,6 +149,11 @@ fn contribution_rows(
     for contribution in &analysis.contributions {
         let parameter = budget.parameters.get(contribution.param);
         let magnitude = contribution.magnitude();
+        let is_drift =
+            parameter.presentation == Presentation::Value(Dimension::TemperatureCoefficient);
+        if is_drift && magnitude == 0.0 {
+            continue;
+        }
         rows.push(ContributionRow {
             name: parameter.name.clone(),
             stage: budget.chain[parameter.stage].label.clone(),
@@ -142,12 +191,37 @@ fn corner(analysis: &PointAnalysis) -> Corner {
     }
 }
 
+fn temperature_result(
+    budget: &Budget,
+    analyses: &Analyses,
+    amplitude: Option<&Amplitude>,
+) -> Option<TemperatureResult> {
+    let (temperature_k, analysis) = analyses.worse_end.as_ref()?;
+    let conversion = conversion_totals(analysis);
+    Some(TemperatureResult {
+        temperature_k: *temperature_k,
+        cmrr_db: conversion.map(Db::from_conversion),
+        error_rti_v: amplitude.map(|a| conversion.map(|e| e * a.volts)),
+        corner: corner(analysis),
+        contributions: contribution_rows(budget, analysis, amplitude),
+    })
+}
+
+/// The converter's LSB, when the chain ends in one.
+fn lsb_volts(budget: &Budget) -> Option<f64> {
+    match budget.chain.last().map(|s| &s.kind) {
+        Some(StageKind::Adc(adc)) => Some(adc.lsb_volts()),
+        _ => None,
+    }
+}
+
 fn source_result(
     budget: &Budget,
     source: &Interference,
-    analysis: &PointAnalysis,
+    analyses: &Analyses,
     requirement: Option<&Requirement>,
 ) -> SourceResult {
+    let analysis = &analyses.reference;
     let conversion = conversion_totals(analysis);
     let gain = analysis.differential_gain.norm();
     let cmrr_db = conversion.map(Db::from_conversion);
@@ -155,15 +229,18 @@ fn source_result(
     let error_fs_ppm = requirement
         .and_then(|r| r.full_scale_volts)
         .map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
+    let judged = analyses.judged_conversion();
     let mut checks = requirement
-        .map(|r| cmrr_checks(r, source.frequency_hz, &cmrr_db))
+        .map(|r| cmrr_checks(r, source.frequency_hz, &judged.map(Db::from_conversion)))
         .unwrap_or_default();
     if let (Some(requirement), Some(limit)) = (
         requirement,
         source.max_error.or(requirement.and_then(|r| r.max_error)),
     ) {
-        let judged = conversion.judged(requirement.judged_on);
-        checks.push(error_check(&limit, judged * source.amplitude.peak_volts()));
+        checks.push(error_check(
+            &limit,
+            judged.judged(requirement.judged_on) * source.amplitude.peak_volts(),
+        ));
     }
     SourceResult {
         source: source.name.clone(),
@@ -176,19 +253,27 @@ fn source_result(
         error_rto_v: error_rti_v.map(|e| e * gain),
         error_fs_ppm,
         corner: corner(analysis),
+        error_lsb: lsb_volts(budget).map(|lsb| error_rti_v.map(|e| e * gain / lsb)),
+        error_measurand: budget
+            .measurand
+            .as_ref()
+            .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
         contributions: contribution_rows(budget, analysis, Some(&source.amplitude)),
+        at_temperature: temperature_result(budget, analyses, Some(&source.amplitude)),
         requirement: outcome(requirement, checks),
     }
 }
 
 fn frequency_result(
     budget: &Budget,
-    analysis: &PointAnalysis,
+    analyses: &Analyses,
     requirement: Option<&Requirement>,
 ) -> FrequencyResult {
+    let analysis = &analyses.reference;
     let cmrr_db = conversion_totals(analysis).map(Db::from_conversion);
+    let judged = analyses.judged_conversion().map(Db::from_conversion);
     let checks = requirement
-        .map(|r| cmrr_checks(r, analysis.freq_hz, &cmrr_db))
+        .map(|r| cmrr_checks(r, analysis.freq_hz, &judged))
         .unwrap_or_default();
     FrequencyResult {
         frequency_hz: analysis.freq_hz,
@@ -196,151 +281,7 @@ fn frequency_result(
         cmrr_db,
         corner: corner(analysis),
         contributions: contribution_rows(budget, analysis, None),
+        at_temperature: temperature_result(budget, analyses, None),
         requirement: outcome(requirement, checks),
     }
-}
-
-fn outcome(requirement: Option<&Requirement>, checks: Vec<Check>) -> Option<RequirementOutcome> {
-    let requirement = requirement?;
-    if checks.is_empty() {
-        return None;
-    }
-    let margin = checks
-        .iter()
-        .map(|c| c.margin_db)
-        .min_by(|a, b| a.0.total_cmp(&b.0))?;
-    Some(RequirementOutcome {
-        met: checks.iter().all(|c| c.met),
-        margin_db: margin,
-        judged_on: requirement.judged_on,
-        checks,
-    })
-}
-
-fn cmrr_checks(requirement: &Requirement, freq: f64, cmrr_db: &Totals<Db>) -> Vec<Check> {
-    let achieved = cmrr_db.judged(requirement.judged_on);
-    requirement
-        .min_cmrr
-        .iter()
-        .filter(|m| same_frequency(m.frequency_hz, freq))
-        .map(|m| {
-            let margin = Db(achieved.0 - m.cmrr_db);
-            Check {
-                limit: format!(
-                    "CMRR ≥ {} at {}",
-                    format_db(m.cmrr_db),
-                    format_si(freq, "Hz")
-                ),
-                achieved: format!("CMRR {}", format_db(achieved.0)),
-                margin_db: margin,
-                met: margin.0 >= 0.0,
-            }
-        })
-        .collect()
-}
-
-/// Compare an error (peak volts, referred to the input) with its limit.
-fn error_check(limit: &ErrorLimit, error_peak: f64) -> Check {
-    let limit_peak = limit.peak_volts();
-    let margin = if error_peak == 0.0 {
-        Db(f64::INFINITY)
-    } else {
-        Db(20.0 * (limit_peak / error_peak).log10())
-    };
-    let (limit_text, achieved) = match limit {
-        ErrorLimit::Volts(amplitude) => {
-            let error = Amplitude {
-                volts: error_peak,
-                form: None,
-            }
-            .volts_in(amplitude.form);
-            (
-                format!("error RTI ≤ {}", amplitude.describe()),
-                format!("error RTI {}", describe_volts(error, amplitude.form)),
-            )
-        }
-        ErrorLimit::OfFullScale {
-            fraction,
-            full_scale_volts,
-        } => (
-            format!(
-                "error RTI ≤ {} of {} full scale",
-                format_fraction(*fraction),
-                format_si(*full_scale_volts, "V")
-            ),
-            format!(
-                "error RTI {} of full scale",
-                format_fraction(error_peak / full_scale_volts)
-            ),
-        ),
-    };
-    Check {
-        limit: limit_text,
-        achieved,
-        margin_db: margin,
-        met: margin.0 >= 0.0,
-    }
-}
-
-/// How the budget was read where the file left something out.
-fn remarks(budget: &Budget) -> Vec<String> {
-    let mut remarks = Vec::new();
-    for stage in &budget.chain {
-        let opamps: Vec<(&str, &OpAmp)> = match &stage.kind {
-            StageKind::DifferenceAmp(amp) => vec![("op-amp", &amp.opamp)],
-            StageKind::ThreeOpAmpInAmp(amp) => vec![
-                ("A1", &amp.first_stage[0]),
-                ("A2", &amp.first_stage[1]),
-                ("A3", &amp.difference_stage.opamp),
-            ],
-            StageKind::IntegratedInAmp(amp) if amp.cmrr_reciprocal.is_none() => {
-                remarks.push(format!(
-                    "{}: no CMRR given, so the in-amp's own CMRR is taken as infinite",
-                    stage.label
-                ));
-                Vec::new()
-            }
-            _ => Vec::new(),
-        };
-        for (who, opamp) in opamps {
-            let mut ideal = Vec::new();
-            if opamp.open_loop_gain.is_none() {
-                ideal.push("infinite open-loop gain");
-            }
-            if opamp.gain_bandwidth_hz.is_none() {
-                ideal.push("infinite gain-bandwidth");
-            }
-            if opamp.cmrr_reciprocal.is_none() {
-                ideal.push("infinite CMRR");
-            }
-            if !ideal.is_empty() {
-                remarks.push(format!(
-                    "{}: {who} taken as ideal in: {}",
-                    stage.label,
-                    ideal.join(", ")
-                ));
-            }
-        }
-    }
-    let exact: Vec<String> = budget
-        .parameters
-        .iter()
-        .filter(|(_, p)| p.variation == Variation::Fixed && is_component(p))
-        .map(|(_, p)| format!("{} ({})", p.name, budget.chain[p.stage].label))
-        .collect();
-    if !exact.is_empty() {
-        remarks.push(format!(
-            "taken as exact (no tolerance given): {}",
-            exact.join(", ")
-        ));
-    }
-    remarks
-}
-
-/// Resistors and capacitors: parts whose tolerance a user normally states.
-fn is_component(parameter: &Parameter) -> bool {
-    matches!(
-        parameter.presentation,
-        Presentation::Value(Dimension::Resistance | Dimension::Capacitance)
-    )
 }

@@ -4,7 +4,9 @@
 
 mod build;
 mod cautions;
+mod checks;
 pub mod csv;
+mod facts;
 pub mod json;
 pub mod table;
 
@@ -184,10 +186,38 @@ pub struct SourceResult {
     pub error_fs_ppm: Option<Totals<f64>>,
     /// The exact worst-aligned corner and its interaction.
     pub corner: Corner,
+    /// The error in codes of the converter at the end of the chain, in
+    /// `amplitude_form`; null without a converter.
+    pub error_lsb: Option<Totals<f64>>,
+    /// The error in units of the measured quantity (`measurand_unit`), in
+    /// `amplitude_form`; null without a measurand.
+    pub error_measurand: Option<Totals<f64>>,
     /// The contributors, largest first.
     pub contributions: Vec<ContributionRow>,
-    /// The requirement's outcome; null when no requirement applies.
+    /// The same analysis at the worse end of the temperature range; null
+    /// without a range.
+    pub at_temperature: Option<TemperatureResult>,
+    /// The requirement's outcome (judged on the worse of the reference
+    /// temperature and the worse end of the range); null when no
+    /// requirement applies.
     pub requirement: Option<RequirementOutcome>,
+}
+
+/// The analysis at the worse end of the operating temperature range, where
+/// the resistors' temperature coefficients contribute.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TemperatureResult {
+    /// The temperature, in kelvin.
+    pub temperature_k: f64,
+    /// The chain's CMRR there.
+    pub cmrr_db: Totals<Db>,
+    /// The error left there, referred to the input (null at a frequency
+    /// with no source).
+    pub error_rti_v: Option<Totals<f64>>,
+    /// The exact worst-aligned corner there.
+    pub corner: Corner,
+    /// The contributors there, largest first.
+    pub contributions: Vec<ContributionRow>,
 }
 
 /// The result at a frequency with no interference source (a required CMRR
@@ -204,6 +234,8 @@ pub struct FrequencyResult {
     pub corner: Corner,
     /// The contributors, largest first.
     pub contributions: Vec<ContributionRow>,
+    /// The same analysis at the worse end of the temperature range.
+    pub at_temperature: Option<TemperatureResult>,
     /// The requirement's outcome; null when no requirement applies.
     pub requirement: Option<RequirementOutcome>,
 }
@@ -231,6 +263,11 @@ pub struct Report {
     pub cautions: Vec<String>,
     /// Remarks on how the budget was read (e.g. parts taken as ideal).
     pub remarks: Vec<String>,
+    /// Computed facts about the stages at nominal values (gains, a pair's
+    /// tail output resistance and the frequency its capacitance takes over).
+    pub facts: Vec<String>,
+    /// The unit of `error_measurand`, when the budget names a measurand.
+    pub measurand_unit: Option<String>,
     /// One entry per interference source, in file order.
     pub results: Vec<SourceResult>,
     /// Further frequencies: required CMRR points and extra frequencies not

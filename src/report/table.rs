@@ -3,6 +3,7 @@
 
 use super::{
     ContributionRow, Corner, Db, FrequencyResult, Report, RequirementOutcome, SourceResult,
+    TemperatureResult,
 };
 use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
@@ -20,9 +21,13 @@ pub fn render_table(report: &Report) -> String {
     for remark in &report.remarks {
         out.push_str(&format!("note: {remark}\n"));
     }
+    for fact in &report.facts {
+        out.push_str(&format!("{fact}\n"));
+    }
+    let unit = report.measurand_unit.as_deref();
     for result in &report.results {
         out.push('\n');
-        out.push_str(&source_section(result));
+        out.push_str(&source_section(result, unit));
     }
     for frequency in &report.frequencies {
         out.push('\n');
@@ -33,7 +38,7 @@ pub fn render_table(report: &Report) -> String {
     out
 }
 
-fn source_section(result: &SourceResult) -> String {
+fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String {
     let form = result.amplitude_form;
     let mut out = format!(
         "{}: {} common mode at {}\n",
@@ -49,7 +54,14 @@ fn source_section(result: &SourceResult) -> String {
     if result.error_fs_ppm.is_some() {
         header.push("error of full scale");
     }
+    if result.error_lsb.is_some() {
+        header.push("error (codes)");
+    }
+    if result.error_measurand.is_some() {
+        header.push("error (measurand)");
+    }
     totals.push_record(header);
+    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
     for judgement in TOTALS {
         let mut row = vec![
             judgement.label().to_string(),
@@ -60,15 +72,85 @@ fn source_section(result: &SourceResult) -> String {
         if let Some(ppm) = &result.error_fs_ppm {
             row.push(format_fraction(ppm.judged(judgement) * 1e-6));
         }
+        if let Some(lsb) = &result.error_lsb {
+            row.push(format!(
+                "{} LSB{suffix}",
+                plain_number(lsb.judged(judgement))
+            ));
+        }
+        if let Some(error) = &result.error_measurand {
+            let unit = measurand_unit.unwrap_or("");
+            row.push(format!(
+                "{} {unit}{suffix}",
+                plain_number(error.judged(judgement))
+            ));
+        }
         totals.push_record(row);
     }
     out.push_str(&section_end(
         totals,
         &result.corner,
+        result.at_temperature.as_ref(),
+        form,
         result.requirement.as_ref(),
     ));
     out
 }
+
+/// A number with three significant digits, in plain or scientific form.
+fn plain_number(value: f64) -> String {
+    if value == 0.0 {
+        "0".to_string()
+    } else if (1e-3..1e5).contains(&value.abs()) {
+        let digits = (2 - value.abs().log10().floor() as i32).max(0) as usize;
+        format!("{value:.digits$}")
+    } else {
+        format!("{value:.2e}")
+    }
+}
+
+/// A temperature in degrees Celsius.
+fn celsius(kelvin: f64) -> String {
+    format!("{:.1} °C", kelvin - 273.15)
+}
+
+/// The worse end of the temperature range: its totals and its largest
+/// contributors.
+fn temperature_lines(result: &TemperatureResult, form: Option<AmplitudeForm>) -> String {
+    let mut out = format!(
+        "at {} (the worse end of the temperature range): CMRR worst case {}, RSS {}",
+        celsius(result.temperature_k),
+        format_db(result.cmrr_db.worst_case.0),
+        format_db(result.cmrr_db.rss.0),
+    );
+    if let Some(error) = &result.error_rti_v {
+        out.push_str(&format!(
+            "; error RTI worst case {}",
+            describe_volts(error.worst_case, form)
+        ));
+    }
+    out.push('\n');
+    let drift: Vec<&ContributionRow> = result
+        .contributions
+        .iter()
+        .filter(|row| row.name.ends_with(" TC") || row.name.contains("TC ("))
+        .take(TEMPERATURE_ROWS)
+        .collect();
+    if !drift.is_empty() {
+        let list: Vec<String> = drift
+            .iter()
+            .map(|row| format!("{} ({}, {})", row.name, row.stage, format_db(row.cmrr_db.0)))
+            .collect();
+        out.push_str(&format!(
+            "  largest drift contributors: {}\n",
+            list.join("; ")
+        ));
+    }
+    out
+}
+
+/// How many drift contributors the temperature line names.
+const TEMPERATURE_ROWS: usize = 4;
 
 fn frequency_section(result: &FrequencyResult) -> String {
     let mut out = format!(
@@ -89,6 +171,8 @@ fn frequency_section(result: &FrequencyResult) -> String {
     out.push_str(&section_end(
         totals,
         &result.corner,
+        result.at_temperature.as_ref(),
+        None,
         result.requirement.as_ref(),
     ));
     out
@@ -158,11 +242,16 @@ fn styled(builder: Builder, first_numeric_column: usize) -> String {
 fn section_end(
     totals: Builder,
     corner: &Corner,
+    at_temperature: Option<&TemperatureResult>,
+    form: Option<AmplitudeForm>,
     requirement: Option<&RequirementOutcome>,
 ) -> String {
     let mut out = styled(totals, 1);
     out.push('\n');
     out.push_str(&corner_line(corner.cmrr_db, corner.interaction_share));
+    if let Some(result) = at_temperature {
+        out.push_str(&temperature_lines(result, form));
+    }
     if let Some(outcome) = requirement {
         out.push_str(&requirement_lines(outcome));
     }

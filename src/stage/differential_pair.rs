@@ -139,8 +139,9 @@ pub struct DifferentialPair {
     pub tail: Tail,
     /// Which output is used.
     pub output: PairOutput,
-    /// Device temperature in kelvin, for V_T.
-    pub temperature_k: f64,
+    /// Device temperature in kelvin, for V_T (follows the ambient when the
+    /// budget gives a temperature range).
+    pub temperature: ParamId,
 }
 
 /// The pair's node voltages per unit of each input, `[from v_p, from v_n]`.
@@ -163,9 +164,9 @@ pub struct PairSmallSignal {
 }
 
 impl DifferentialPair {
-    /// The thermal voltage kT/q.
-    pub fn thermal_voltage(&self) -> f64 {
-        K_OVER_Q * self.temperature_k
+    /// The thermal voltage kT/q at `point`.
+    pub fn thermal_voltage(&self, point: &Point) -> f64 {
+        K_OVER_Q * point.value(self.temperature)
     }
 
     /// The devices' small-signal values at `point`.
@@ -177,7 +178,7 @@ impl DifferentialPair {
                 beta,
                 early_voltage,
             } => {
-                let vt = self.thermal_voltage();
+                let vt = self.thermal_voltage(point);
                 // The tail current is the sum of the emitter currents; the
                 // collectors carry β/(β + 1) of each.
                 let first = current / (1.0 + (-offset / vt).exp());
@@ -237,7 +238,7 @@ impl DifferentialPair {
     /// The tail's output resistance at `point` (without its capacitance).
     pub fn tail_resistance(&self, point: &Point) -> f64 {
         let current = point.value_or(self.tail_current, 0.0);
-        let vt = self.thermal_voltage();
+        let vt = self.thermal_voltage(point);
         // The tail device's gm and r_π at the tail current.
         let device = |beta: Option<ParamId>, overdrive: Option<ParamId>| -> (f64, f64) {
             match (beta, overdrive) {

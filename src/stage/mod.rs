@@ -14,6 +14,7 @@
 //! [`StageSolve`]), add a variant to [`StageKind`], and teach the budget
 //! file's raw schema and validator to build it (see DEVELOPERS.md).
 
+mod adc;
 mod difference_amp;
 mod differential_pair;
 mod integrated_inamp;
@@ -22,6 +23,7 @@ mod pins;
 mod source_network;
 mod three_opamp_inamp;
 
+pub use adc::Adc;
 pub use difference_amp::DifferenceAmp;
 pub use differential_pair::{
     DifferentialPair, PairDevice, PairOutput, PairSmallSignal, Tail, TailKind, K_OVER_Q,
@@ -111,6 +113,8 @@ pub enum StageKind {
     IntegratedInAmp(IntegratedInAmp),
     /// A discrete long-tailed pair.
     DifferentialPair(DifferentialPair),
+    /// A differential-input converter, last in the chain.
+    Adc(Adc),
 }
 
 impl StageKind {
@@ -122,6 +126,7 @@ impl StageKind {
             StageKind::ThreeOpAmpInAmp(_) => "three-op-amp instrumentation amplifier",
             StageKind::IntegratedInAmp(_) => "integrated instrumentation amplifier",
             StageKind::DifferentialPair(_) => "differential pair",
+            StageKind::Adc(_) => "converter",
         }
     }
 
@@ -138,6 +143,7 @@ impl StageKind {
             StageKind::ThreeOpAmpInAmp(stage) => stage,
             StageKind::IntegratedInAmp(stage) => stage,
             StageKind::DifferentialPair(stage) => stage,
+            StageKind::Adc(stage) => stage,
         }
     }
 }

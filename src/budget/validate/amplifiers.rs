@@ -3,13 +3,13 @@
 
 use super::{Range, Validator};
 use crate::budget::raw::{
-    PerLeg, RawCmrrAtGain, RawDifferenceAmp, RawIntegratedInAmp, RawOpAmp, RawThreeOpAmpInAmp,
-    Scalar,
+    PerLeg, RawAdc, RawCmrrAtGain, RawDifferenceAmp, RawIntegratedInAmp, RawOpAmp,
+    RawThreeOpAmpInAmp, Scalar,
 };
 use crate::model::{ParamId, Parameter, Presentation, Variation};
 use crate::quantity::Dimension;
 use crate::stage::{
-    DifferenceAmp, GainSetting, IntegratedInAmp, OpAmp, PinShunt, StageKind, ThreeOpAmpInAmp,
+    Adc, DifferenceAmp, GainSetting, IntegratedInAmp, OpAmp, PinShunt, StageKind, ThreeOpAmpInAmp,
 };
 
 impl Validator<'_> {
@@ -41,10 +41,15 @@ impl Validator<'_> {
                 stage,
             )
         };
-        let r1 = resistor(self, &raw.r1, "r1", "R1");
-        let r2 = resistor(self, &raw.r2, "r2", "R2");
-        let r3 = resistor(self, &raw.r3, "r3", "R3");
-        let r4 = resistor(self, &raw.r4, "r4", "R4");
+        let drift = self.drift(raw.tcr.as_ref(), raw.network.as_ref(), path, stage);
+        let drifting = |this: &mut Self, scalar: &Scalar, field: &str, name: &str| {
+            let base = resistor(this, scalar, field, name)?;
+            Some(this.drifting(base, drift, stage))
+        };
+        let r1 = drifting(self, &raw.r1, "r1", "R1");
+        let r2 = drifting(self, &raw.r2, "r2", "R2");
+        let r3 = drifting(self, &raw.r3, "r3", "R3");
+        let r4 = drifting(self, &raw.r4, "r4", "R4");
         let reference_resistance = raw
             .reference_resistance
             .as_ref()
@@ -73,27 +78,20 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<StageKind> {
         let problems_before = self.problems.len();
-        let rg = self.part(
-            &raw.rg,
-            &format!("{path}.rg"),
-            Dimension::Resistance,
-            "RG".into(),
-            stage,
-        );
-        let rf1 = self.part(
-            &raw.rf1,
-            &format!("{path}.rf1"),
-            Dimension::Resistance,
-            "RF1".into(),
-            stage,
-        );
-        let rf2 = self.part(
-            &raw.rf2,
-            &format!("{path}.rf2"),
-            Dimension::Resistance,
-            "RF2".into(),
-            stage,
-        );
+        let drift = self.drift(raw.tcr.as_ref(), None, path, stage);
+        let resistor = |this: &mut Self, scalar: &Scalar, field: &str, name: &str| {
+            let base = this.part(
+                scalar,
+                &format!("{path}.{field}"),
+                Dimension::Resistance,
+                name.into(),
+                stage,
+            )?;
+            Some(this.drifting(base, drift, stage))
+        };
+        let rg = resistor(self, &raw.rg, "rg", "RG");
+        let rf1 = resistor(self, &raw.rf1, "rf1", "RF1");
+        let rf2 = resistor(self, &raw.rf2, "rf2", "RF2");
         let pins = self.pins(&raw.input_resistance, &raw.input_capacitance, path, stage);
         let opamp_path = format!("{path}.first_stage_opamps");
         let first_stage = match &raw.first_stage_opamps {
@@ -195,6 +193,66 @@ impl Validator<'_> {
             cmrr_corner_hz,
             bandwidth_hz,
             pins,
+        }))
+    }
+
+    pub(super) fn adc(&mut self, raw: &RawAdc, path: &str, stage: usize) -> Option<StageKind> {
+        let problems_before = self.problems.len();
+        let span = self.quantity(
+            &raw.span,
+            &format!("{path}.span"),
+            Dimension::Voltage,
+            Range::Positive,
+            false,
+        );
+        if !(1..=32).contains(&raw.bits) {
+            self.problem(
+                &format!("{path}.bits"),
+                format!("{} bits is not a converter resolution", raw.bits),
+                "give the resolution in bits, from 1 to 32",
+            );
+        }
+        let pins = self.pins(&raw.input_resistance, &raw.input_capacitance, path, stage);
+        let cmrr_reciprocal = raw.cmrr.as_ref().and_then(|c| {
+            let db = self.cmrr_db(c, &format!("{path}.cmrr"))?;
+            Some(self.cmrr_bound(db, path, stage, "converter CMRR"))
+        });
+        let cmrr_corner_hz = raw.cmrr_corner.as_ref().and_then(|c| {
+            let corner_path = format!("{path}.cmrr_corner");
+            if cmrr_reciprocal.is_none() {
+                self.problem(
+                    &corner_path,
+                    "a CMRR corner is given without a CMRR",
+                    "add `cmrr: …`, or remove `cmrr_corner`",
+                );
+                return None;
+            }
+            self.fixed(
+                c,
+                &corner_path,
+                Dimension::Frequency,
+                "converter CMRR corner".into(),
+                stage,
+            )
+        });
+        if self.problems.len() > problems_before {
+            return None;
+        }
+        let span = span?;
+        if span.form.is_some() {
+            self.problem(
+                &format!("{path}.span"),
+                "a converter's span is a plain voltage",
+                "write the full differential span, e.g. `5 V` for ±2.5 V",
+            );
+            return None;
+        }
+        Some(StageKind::Adc(Adc {
+            cmrr_reciprocal,
+            cmrr_corner_hz,
+            pins,
+            span_volts: span.value,
+            bits: raw.bits,
         }))
     }
 

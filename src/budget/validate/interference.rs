@@ -1,8 +1,10 @@
 //! Validation of interference sources and the requirement.
 
 use super::{Range, Validator};
-use crate::budget::raw::{RawInterference, RawJudgement, RawRequirement, Scalar};
-use crate::model::{Amplitude, ErrorLimit, Interference, Judgement, MinimumCmrr, Requirement};
+use crate::budget::raw::{RawInterference, RawJudgement, RawMeasurand, RawRequirement, Scalar};
+use crate::model::{
+    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Requirement,
+};
 use crate::quantity::{parse_quantity, Dimension};
 
 impl Validator<'_> {
@@ -191,5 +193,65 @@ impl Validator<'_> {
                 _ => {}
             }
         }
+    }
+
+    pub(super) fn measurand(&mut self, raw: &RawMeasurand) -> Option<Measurand> {
+        let unit = raw.unit.trim().to_string();
+        if unit.is_empty() {
+            self.problem(
+                "measurand.unit",
+                "the measured quantity's unit is empty",
+                "name it, e.g. `unit: kg`",
+            );
+            return None;
+        }
+        let volts_per_unit = match (&raw.volts_per_unit, &raw.bridge) {
+            (Some(v), None) => {
+                self.quantity(
+                    v,
+                    "measurand.volts_per_unit",
+                    Dimension::Voltage,
+                    Range::Positive,
+                    false,
+                )?
+                .value
+            }
+            (None, Some(bridge)) => {
+                let sensitivity = self.quantity(
+                    &bridge.sensitivity,
+                    "measurand.bridge.sensitivity",
+                    Dimension::Gain,
+                    Range::Positive,
+                    false,
+                );
+                let excitation = self.quantity(
+                    &bridge.excitation,
+                    "measurand.bridge.excitation",
+                    Dimension::Voltage,
+                    Range::Positive,
+                    false,
+                );
+                let capacity = self.quantity(
+                    &bridge.capacity,
+                    "measurand.bridge.capacity",
+                    Dimension::Gain,
+                    Range::Positive,
+                    false,
+                );
+                sensitivity?.value * excitation?.value / capacity?.value
+            }
+            _ => {
+                self.problem(
+                    "measurand",
+                    "the measured quantity needs exactly one of `volts_per_unit` or `bridge`",
+                    "give `volts_per_unit: 41 uV` (sensor output per unit), or `bridge: {sensitivity: 2 mV/V, excitation: 5 V, capacity: 50}`",
+                );
+                return None;
+            }
+        };
+        Some(Measurand {
+            unit,
+            volts_per_unit,
+        })
     }
 }

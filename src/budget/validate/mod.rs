@@ -6,12 +6,15 @@ mod amplifiers;
 mod interference;
 mod pair;
 mod source;
+mod temperature;
 
 use super::error::Diagnostic;
 use super::locate::SourceMap;
 use super::raw::{PerLeg, RawBudget, RawStage, Scalar};
+use crate::engine::MAX_STAGES;
 use crate::model::{
-    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, Variation,
+    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, TemperatureRange,
+    Variation,
 };
 use crate::quantity::{parse_quantity, Dimension, Quantity};
 use crate::stage::Stage;
@@ -26,6 +29,7 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
         map,
         problems: Vec::new(),
         parameters: Parameters::new(),
+        temperature: None,
     };
     let budget = v.budget(raw);
     if v.problems.is_empty() {
@@ -49,6 +53,8 @@ struct Validator<'a> {
     map: &'a SourceMap,
     problems: Vec<Diagnostic>,
     parameters: Parameters,
+    /// The budget's temperature range, read before the chain.
+    temperature: Option<TemperatureRange>,
 }
 
 impl Validator<'_> {
@@ -217,6 +223,10 @@ impl Validator<'_> {
                 "give the design a name, e.g. `name: scale front end, rev B`",
             );
         }
+        self.temperature = raw
+            .temperature
+            .as_ref()
+            .and_then(|t| self.temperature_range(t));
         let chain = self.chain(&raw.chain);
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
         let full_scale = requirement.as_ref().and_then(|r| r.full_scale_volts);
@@ -266,6 +276,8 @@ impl Validator<'_> {
                 patient_connected: raw.patient_connected.unwrap_or(false),
                 mains_referenced: raw.mains_referenced.unwrap_or(false),
             },
+            temperature: self.temperature,
+            measurand: raw.measurand.as_ref().and_then(|m| self.measurand(m)),
         }
     }
 
@@ -275,6 +287,17 @@ impl Validator<'_> {
                 "chain",
                 "the chain is empty",
                 "list the stages from the sensor on, e.g. a `source` then a `difference_amp`",
+            );
+            return Vec::new();
+        }
+        if raw.len() > MAX_STAGES {
+            self.problem(
+                "chain",
+                format!(
+                    "the chain has {} stages; at most {MAX_STAGES} are supported",
+                    raw.len()
+                ),
+                "merge stages, or split the budget in two",
             );
             return Vec::new();
         }
@@ -305,6 +328,20 @@ impl Validator<'_> {
                 RawStage::IntegratedInamp(amp) => self
                     .integrated_inamp(amp, &format!("{path}.integrated_inamp"), index)
                     .map(|s| (s, amp.label.clone(), "integrated in-amp")),
+                RawStage::Adc(adc) => {
+                    if index + 1 != raw.len() {
+                        self.problem(
+                            &format!("{path}.adc"),
+                            format!(
+                                "a converter must be the last stage, but stage {} follows it",
+                                index + 2
+                            ),
+                            "move the `adc` to the end of the chain",
+                        );
+                    }
+                    self.adc(adc, &format!("{path}.adc"), index)
+                        .map(|s| (s, adc.label.clone(), "converter"))
+                }
             };
             if let Some((kind, label, default_label)) = built {
                 let label = label

@@ -190,18 +190,8 @@ impl Validator<'_> {
             "RC",
             stage,
         );
-        let temperature_k = match &raw.temperature {
-            Some(t) => self
-                .quantity(
-                    t,
-                    &field("temperature"),
-                    Dimension::Temperature,
-                    Range::Positive,
-                    false,
-                )
-                .map_or(DEFAULT_DEVICE_TEMPERATURE_K, |q| q.value),
-            None => DEFAULT_DEVICE_TEMPERATURE_K,
-        };
+        let temperature =
+            self.device_temperature(raw.temperature.as_ref(), &field("temperature"), stage);
         let tail = self.tail(
             &raw.tail,
             &field("tail"),
@@ -224,8 +214,68 @@ impl Validator<'_> {
                 RawPairOutput::Differential => PairOutput::Differential,
                 RawPairOutput::SingleEnded => PairOutput::SingleEnded,
             },
-            temperature_k,
+            temperature: temperature?,
         }))
+    }
+
+    /// The pair's device temperature: its own fixed `temperature`, or the
+    /// ambient of the budget's temperature range (reference plus the
+    /// excursion), or 300 K.
+    fn device_temperature(
+        &mut self,
+        own: Option<&Scalar>,
+        path: &str,
+        stage: usize,
+    ) -> Option<ParamId> {
+        let fixed = |this: &mut Self, kelvin: f64| {
+            this.parameters.add(Parameter {
+                name: "device temperature".into(),
+                stage,
+                field: path.into(),
+                nominal: kelvin,
+                variation: Variation::Fixed,
+                presentation: Presentation::Value(Dimension::Temperature),
+            })
+        };
+        match (own, self.temperature) {
+            (Some(_), Some(_)) => {
+                self.problem(
+                    path,
+                    "the pair has its own `temperature`, but the budget already gives a temperature range that the devices follow",
+                    "remove the pair's `temperature`; its devices sit at the budget's ambient",
+                );
+                None
+            }
+            (Some(text), None) => {
+                let q =
+                    self.quantity(text, path, Dimension::Temperature, Range::Positive, false)?;
+                Some(fixed(self, q.value))
+            }
+            (None, Some(range)) => {
+                let base = fixed(self, range.reference_k);
+                let per_kelvin = self.parameters.add(Parameter {
+                    name: "device temperature coefficient".into(),
+                    stage,
+                    field: path.into(),
+                    nominal: 1.0 / range.reference_k,
+                    variation: Variation::Fixed,
+                    presentation: Presentation::Value(Dimension::TemperatureCoefficient),
+                });
+                Some(self.parameters.add_derived(
+                    Parameter {
+                        name: "device temperature".into(),
+                        stage,
+                        field: path.into(),
+                        nominal: range.reference_k,
+                        variation: Variation::Derived,
+                        presentation: Presentation::Value(Dimension::Temperature),
+                    },
+                    base,
+                    vec![per_kelvin],
+                ))
+            }
+            (None, None) => Some(fixed(self, DEFAULT_DEVICE_TEMPERATURE_K)),
+        }
     }
 
     /// A bound of unknown sign around zero.

@@ -1,0 +1,138 @@
+//! What the report says about the stages beyond the budget: remarks on how
+//! the file was read, and facts computed at nominal values.
+
+use crate::model::{Budget, Parameter, Presentation, Variation};
+use crate::quantity::{format_db, format_si, Dimension};
+use crate::stage::{OpAmp, Point, StageKind};
+
+/// How the budget was read where the file left something out.
+pub(super) fn remarks(budget: &Budget) -> Vec<String> {
+    let mut remarks = Vec::new();
+    for stage in &budget.chain {
+        let opamps: Vec<(&str, &OpAmp)> = match &stage.kind {
+            StageKind::DifferenceAmp(amp) => vec![("op-amp", &amp.opamp)],
+            StageKind::ThreeOpAmpInAmp(amp) => vec![
+                ("A1", &amp.first_stage[0]),
+                ("A2", &amp.first_stage[1]),
+                ("A3", &amp.difference_stage.opamp),
+            ],
+            StageKind::IntegratedInAmp(amp) if amp.cmrr_reciprocal.is_none() => {
+                remarks.push(format!(
+                    "{}: no CMRR given, so the in-amp's own CMRR is taken as infinite",
+                    stage.label
+                ));
+                Vec::new()
+            }
+            _ => Vec::new(),
+        };
+        for (who, opamp) in opamps {
+            let mut ideal = Vec::new();
+            if opamp.open_loop_gain.is_none() {
+                ideal.push("infinite open-loop gain");
+            }
+            if opamp.gain_bandwidth_hz.is_none() {
+                ideal.push("infinite gain-bandwidth");
+            }
+            if opamp.cmrr_reciprocal.is_none() {
+                ideal.push("infinite CMRR");
+            }
+            if !ideal.is_empty() {
+                remarks.push(format!(
+                    "{}: {who} taken as ideal in: {}",
+                    stage.label,
+                    ideal.join(", ")
+                ));
+            }
+        }
+    }
+    let exact: Vec<String> = budget
+        .parameters
+        .iter()
+        .filter(|(_, p)| p.variation == Variation::Fixed && is_component(p))
+        .map(|(_, p)| format!("{} ({})", p.name, budget.chain[p.stage].label))
+        .collect();
+    if !exact.is_empty() {
+        remarks.push(format!(
+            "taken as exact (no tolerance given): {}",
+            exact.join(", ")
+        ));
+    }
+    remarks
+}
+
+/// Resistors and capacitors: parts whose tolerance a user normally states.
+fn is_component(parameter: &Parameter) -> bool {
+    matches!(
+        parameter.presentation,
+        Presentation::Value(Dimension::Resistance | Dimension::Capacitance)
+    )
+}
+
+/// Facts computed at nominal values and the reference temperature: gains,
+/// a pair's bias and tail, a converter's LSB.
+pub(super) fn facts(budget: &Budget) -> Vec<String> {
+    let values = budget.parameters.nominal_values();
+    let point = Point::new(0.0, &values);
+    let mut facts = Vec::new();
+    for stage in &budget.chain {
+        let label = &stage.label;
+        match &stage.kind {
+            StageKind::DifferenceAmp(amp) => facts.push(format!(
+                "{label}: gain R2/R1 = {}",
+                format_si(point.value(amp.r2) / point.value(amp.r1), "V/V")
+            )),
+            StageKind::ThreeOpAmpInAmp(amp) => {
+                let g1 = 1.0 + (point.value(amp.rf1) + point.value(amp.rf2)) / point.value(amp.rg);
+                let g2 =
+                    point.value(amp.difference_stage.r2) / point.value(amp.difference_stage.r1);
+                facts.push(format!(
+                    "{label}: first-stage gain G1 = 1 + (RF1 + RF2)/RG = {}, difference stage {}, total {}",
+                    format_si(g1, "V/V"),
+                    format_si(g2, "V/V"),
+                    format_si(g1 * g2, "V/V")
+                ));
+            }
+            StageKind::IntegratedInAmp(amp) => {
+                let mut text = format!("{label}: gain {}", format_si(amp.gain.gain(&point), "V/V"));
+                if let Some(id) = amp.cmrr_reciprocal {
+                    if let Variation::SignedBound { magnitude } =
+                        budget.parameters.get(id).variation
+                    {
+                        text.push_str(&format!(
+                            "; minimum CMRR at this gain {}",
+                            format_db(-20.0 * magnitude.log10())
+                        ));
+                    }
+                }
+                facts.push(text);
+            }
+            StageKind::DifferentialPair(pair) => {
+                let small = pair.small_signal(&point);
+                let r_out = pair.tail_resistance(&point);
+                let mut text = format!(
+                    "{label}: gm {} and {}; tail output resistance {}",
+                    format_si(small.gm[0], "S"),
+                    format_si(small.gm[1], "S"),
+                    format_si(r_out, "Ω")
+                );
+                if let Some(c) = pair.tail.capacitance {
+                    let corner = 1.0 / (2.0 * std::f64::consts::PI * r_out * point.value(c));
+                    text.push_str(&format!(
+                        "; its {} takes over above {} (CMRR falls 20 dB/decade from there)",
+                        format_si(point.value(c), "F"),
+                        format_si(corner, "Hz")
+                    ));
+                }
+                facts.push(text);
+            }
+            StageKind::Adc(adc) => facts.push(format!(
+                "{label}: LSB {} ({} bits over {})",
+                format_si(adc.lsb_volts(), "V"),
+                adc.bits,
+                format_si(adc.span_volts, "V")
+            )),
+            StageKind::SourceNetwork(_) => {}
+        }
+    }
+    facts
+}
