@@ -513,28 +513,48 @@ fn resistor_drift_separate_parts_and_network() {
     use cmrr_budget::engine::analyse_point_at;
     let t = 1e-4;
     let delta_t = 45.0; // 25 °C reference, 70 °C hot end
-    let header = "name: drift\ntemperature: {reference: 25 degC, range: [0 degC, 70 degC]}\nchain:\n";
+    let header =
+        "name: drift\ntemperature: {reference: 25 degC, range: [0 degC, 70 degC]}\nchain:\n";
     let tail = "interference:\n  - {name: hum, amplitude: 1 V rms, frequency: 50 Hz}\n";
     let stage = |drift: &str| {
         format!("  - difference_amp:\n      r1: 10k ±0.01 %\n      r2: 100k ±0.01 %\n      r3: 10k ±0.01 %\n      r4: 100k ±0.01 %\n{drift}")
     };
-    let separate = parse_budget(&format!("{header}{}{tail}", stage("      tcr: 25 ppm/K\n")), "d.yaml").unwrap();
+    let separate = parse_budget(
+        &format!("{header}{}{tail}", stage("      tcr: 25 ppm/K\n")),
+        "d.yaml",
+    )
+    .unwrap();
     let network = parse_budget(
-        &format!("{header}{}{tail}", stage("      network: {tcr: 25 ppm/K, tracking: 2 ppm/K}\n")),
+        &format!(
+            "{header}{}{tail}",
+            stage("      network: {tcr: 25 ppm/K, tracking: 2 ppm/K}\n")
+        ),
         "n.yaml",
     )
     .unwrap();
     // At the reference temperature the coefficients contribute nothing.
     for b in [&separate, &network] {
         let room = at(b, 0.0);
-        assert_relative_eq!(1.0 / room.worst_case(), 11.0 / (4.0 * t), max_relative = 1e-3);
+        assert_relative_eq!(
+            1.0 / room.worst_case(),
+            11.0 / (4.0 * t),
+            max_relative = 1e-3
+        );
     }
     let hot_separate = analyse_point_at(&separate, 0.0, delta_t).unwrap();
     let expected_separate = 11.0 / (4.0 * (t + 25e-6 * delta_t));
-    assert_relative_eq!(1.0 / hot_separate.worst_case(), expected_separate, max_relative = 0.01);
+    assert_relative_eq!(
+        1.0 / hot_separate.worst_case(),
+        expected_separate,
+        max_relative = 0.01
+    );
     let hot_network = analyse_point_at(&network, 0.0, delta_t).unwrap();
     let expected_network = 11.0 / (4.0 * (t + 1e-6 * delta_t));
-    assert_relative_eq!(1.0 / hot_network.worst_case(), expected_network, max_relative = 0.01);
+    assert_relative_eq!(
+        1.0 / hot_network.worst_case(),
+        expected_network,
+        max_relative = 0.01
+    );
     // The shared coefficient alone converts nothing (it scales all four).
     let shared = hot_network
         .contributions

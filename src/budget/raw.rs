@@ -198,6 +198,10 @@ pub struct RawIntegratedInAmp {
     pub input_resistance: Option<PerLeg>,
     #[serde(default)]
     pub input_capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub input_range: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub output_swing: Option<Vec<Scalar>>,
 }
 
 /// `G = base + constant / RG`.
@@ -248,6 +252,12 @@ pub struct RawDifferentialPair {
     #[serde(default)]
     pub temperature: Option<Scalar>,
     pub tail: RawTail,
+    #[serde(default)]
+    pub supply: Option<Scalar>,
+    #[serde(default)]
+    pub input_drop: Option<Scalar>,
+    #[serde(default)]
+    pub saturation: Option<Scalar>,
 }
 
 /// The pair's device type.
@@ -310,6 +320,10 @@ pub struct RawOpAmp {
     pub cmrr: Option<Scalar>,
     #[serde(default)]
     pub cmrr_corner: Option<Scalar>,
+    #[serde(default)]
+    pub input_range: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub output_swing: Option<Vec<Scalar>>,
 }
 
 /// A common-mode interference source.

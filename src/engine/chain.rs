@@ -29,17 +29,10 @@ pub enum EngineError {
     },
 }
 
-/// The mixed-mode response of the whole chain at `point`, from the sensor's
-/// (vdm, vcm) to the last stage's output.
-///
-/// Each stage is solved with the input admittance of the stage after it as
-/// its load, so the source network and the first amplifier are solved
-/// together; stages are then multiplied in node-voltage form, which keeps a
-/// single-ended output (output, ground) exact when a differential stage
-/// follows it.
-pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, EngineError> {
-    // Loads, from the last stage back: each stage is loaded by the input
-    // admittance of the next, which may itself depend on its own load.
+/// The load each stage drives at `point`, from the last stage back: each
+/// stage is loaded by the input admittance of the next, which may itself
+/// depend on its own load. The last stage drives nothing.
+pub fn stage_loads(chain: &[Stage], point: &Point) -> Result<[Mat2; MAX_STAGES], EngineError> {
     let mut loads = [Mat2::ZERO; MAX_STAGES];
     if chain.len() > MAX_STAGES {
         return Err(EngineError::TooManyStages { count: chain.len() });
@@ -49,6 +42,19 @@ pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, Engin
             .kind
             .input_admittance(point, &loads[index + 1]);
     }
+    Ok(loads)
+}
+
+/// The mixed-mode response of the whole chain at `point`, from the sensor's
+/// (vdm, vcm) to the last stage's output.
+///
+/// Each stage is solved with the input admittance of the stage after it as
+/// its load, so the source network and the first amplifier are solved
+/// together; stages are then multiplied in node-voltage form, which keeps a
+/// single-ended output (output, ground) exact when a differential stage
+/// follows it.
+pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, EngineError> {
+    let loads = stage_loads(chain, point)?;
     let mut total = Mat2::IDENTITY;
     for (stage, load) in chain.iter().zip(&loads) {
         total = stage.kind.transfer(point, load)? * total;

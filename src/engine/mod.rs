@@ -4,11 +4,13 @@
 
 mod chain;
 mod contributions;
+mod headroom;
 pub mod linalg;
 mod mixed_mode;
 
-pub use chain::{chain_response, EngineError, MAX_STAGES};
+pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
     analyse_point, analyse_point_at, Contribution, PointAnalysis, RESOLUTION_FLOOR,
 };
+pub use headroom::{check_headroom, HeadroomFinding};
 pub use mixed_mode::MixedMode;

@@ -7,7 +7,7 @@ use super::{
     ContributionKind, ContributionRow, Corner, Db, FrequencyResult, Report, SourceResult,
     TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
-use crate::engine::{analyse_point_at, EngineError, PointAnalysis};
+use crate::engine::{analyse_point_at, check_headroom, EngineError, PointAnalysis};
 use crate::model::{Amplitude, Budget, Interference, Presentation, Requirement};
 use crate::quantity::Dimension;
 use crate::stage::StageKind;
@@ -115,6 +115,7 @@ pub fn build_report(budget: &Budget) -> Result<Report, EngineError> {
         remarks: remarks(budget),
         facts: facts(budget),
         measurand_unit: budget.measurand.as_ref().map(|m| m.unit.clone()),
+        headroom: check_headroom(budget)?,
         results,
         frequencies,
         verdict,

@@ -12,6 +12,7 @@ pub mod table;
 
 pub use build::build_report;
 
+use crate::engine::HeadroomFinding;
 use crate::model::Judgement;
 use crate::quantity::AmplitudeForm;
 use serde::{Serialize, Serializer};
@@ -268,6 +269,11 @@ pub struct Report {
     pub facts: Vec<String>,
     /// The unit of `error_measurand`, when the budget names a measurand.
     pub measurand_unit: Option<String>,
+    /// Nodes that leave their stated range (input common-mode range, output
+    /// swing, transistor saturation) with the interference and full-scale
+    /// signal applied: the CMRR figures assume linear operation and do not
+    /// hold where there is a finding.
+    pub headroom: Vec<HeadroomFinding>,
     /// One entry per interference source, in file order.
     pub results: Vec<SourceResult>,
     /// Further frequencies: required CMRR points and extra frequencies not

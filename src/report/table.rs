@@ -18,6 +18,23 @@ pub fn render_table(report: &Report) -> String {
     for caution in &report.cautions {
         out.push_str(&format!("\n{caution}\n"));
     }
+    for finding in &report.headroom {
+        let allowed = match finding.allowed_high_v {
+            Some(high) => format!(
+                "{} to {}",
+                format_si(finding.allowed_low_v, "V"),
+                format_si(high, "V")
+            ),
+            None => format!("at least {}", format_si(finding.allowed_low_v, "V")),
+        };
+        out.push_str(&format!(
+            "\nWARNING (headroom): {}, {} spans {} to {}, outside its range ({allowed}); the CMRR figures below assume linear operation and do not hold\n",
+            finding.stage,
+            finding.node,
+            format_si(finding.low_v, "V"),
+            format_si(finding.high_v, "V"),
+        ));
+    }
     for remark in &report.remarks {
         out.push_str(&format!("note: {remark}\n"));
     }

@@ -22,7 +22,7 @@
 //! Input admittance: the p pin sees R3 + R4' to ground; the n pin draws
 //! `(v_n − v_o)/(R1 + R2)`, which depends on both inputs through `v_o`.
 
-use super::{OpAmp, Point, SingularStage, StageSolve};
+use super::{OpAmp, Point, Probe, SingularStage, StageSolve};
 use crate::engine::linalg::{Mat2, C64, ZERO};
 use crate::model::ParamId;
 
@@ -63,6 +63,25 @@ impl DifferenceAmp {
     }
 }
 
+impl DifferenceAmp {
+    /// The op-amp's input and output nodes to keep within its ranges, per
+    /// volt at this stage's pins; `prefix` names the op-amp.
+    pub(crate) fn opamp_probes(&self, point: &Point, prefix: &str) -> Vec<Probe> {
+        let mut probes = Vec::new();
+        if let Some(range) = self.opamp.input_range {
+            let r3 = point.value(self.r3);
+            let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+            let k3 = C64::new(r4 / (r3 + r4), 0.0);
+            probes.push(range.probe(format!("{prefix} inputs"), [k3, ZERO], 0.0));
+        }
+        if let Some(range) = self.opamp.output_swing {
+            let (m_p, m_n) = self.output_gains(point);
+            probes.push(range.probe(format!("{prefix} output"), [m_p, m_n], 0.0));
+        }
+        probes
+    }
+}
+
 impl StageSolve for DifferenceAmp {
     fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
         let r1 = point.value(self.r1);
@@ -90,6 +109,10 @@ impl StageSolve for DifferenceAmp {
                 freq_hz: point.freq_hz,
             })
         }
+    }
+
+    fn probes(&self, point: &Point, _load: &Mat2) -> Vec<Probe> {
+        self.opamp_probes(point, "op-amp")
     }
 }
 

@@ -32,7 +32,7 @@
 //! `r_o2 (1 + gm2 (r_o1 ∥ r_π2)) + (r_o1 ∥ r_π2)` (`r_o2 (1 + gm2 r_o1) + r_o1`
 //! for a MOSFET); or a stated output resistance.
 
-use super::{Point, SingularStage, StageSolve};
+use super::{Point, Probe, SingularStage, StageSolve};
 use crate::engine::linalg::{Mat2, NodalSystem, Node, C64, ZERO};
 use crate::model::ParamId;
 
@@ -142,6 +142,20 @@ pub struct DifferentialPair {
     /// Device temperature in kelvin, for V_T (follows the ambient when the
     /// budget gives a temperature range).
     pub temperature: ParamId,
+    /// Supply and device drops for the headroom check, when given.
+    pub headroom: Option<PairHeadroom>,
+}
+
+/// What the headroom check needs to know about a pair's operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PairHeadroom {
+    /// The rail the load resistors return to, in volts.
+    pub supply: f64,
+    /// Base-emitter (gate-source) voltage at the bias current.
+    pub input_drop: f64,
+    /// The least collector-emitter (drain-source) voltage that keeps a
+    /// device out of saturation (triode).
+    pub saturation: f64,
 }
 
 /// The pair's node voltages per unit of each input, `[from v_p, from v_n]`.
@@ -161,6 +175,8 @@ pub struct PairSmallSignal {
     pub g_pi: [f64; 2],
     /// 1/r_o.
     pub g_o: [f64; 2],
+    /// DC collector (drain) currents, when the bias is known.
+    pub bias_current: Option<[f64; 2]>,
 }
 
 impl DifferentialPair {
@@ -187,6 +203,7 @@ impl DifferentialPair {
                 let gm = [ic[0] / vt, ic[1] / vt];
                 PairSmallSignal {
                     gm,
+                    bias_current: Some(ic),
                     g_pi: [gm[0] / point.value(beta[0]), gm[1] / point.value(beta[1])],
                     g_o: [
                         ic[0] / point.value(early_voltage[0]),
@@ -208,6 +225,7 @@ impl DifferentialPair {
                 let id = [k * vov[0] * vov[0], k * vov[1] * vov[1]];
                 PairSmallSignal {
                     gm: [2.0 * k * vov[0], 2.0 * k * vov[1]],
+                    bias_current: Some(id),
                     g_pi: [0.0, 0.0],
                     g_o: [
                         id[0] / point.value(early_voltage[0]),
@@ -217,6 +235,7 @@ impl DifferentialPair {
             }
             PairDevice::SmallSignal { gm, r_pi, ro } => PairSmallSignal {
                 gm: [point.value(gm[0]), point.value(gm[1])],
+                bias_current: self.tail_current.map(|_| [current / 2.0; 2]),
                 g_pi: [
                     r_pi[0].map_or(0.0, |r| 1.0 / point.value(r)),
                     r_pi[1].map_or(0.0, |r| 1.0 / point.value(r)),
@@ -370,6 +389,34 @@ impl StageSolve for DifferentialPair {
         };
         let (p, n) = (row(0), row(1));
         Mat2::new(p[0], p[1], n[0], n[1])
+    }
+
+    fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
+        let (Some(headroom), Some(currents)) =
+            (self.headroom, self.small_signal(point).bias_current)
+        else {
+            return Vec::new();
+        };
+        let Ok(nodes) = self.solve(point, load) else {
+            return Vec::new();
+        };
+        (0..2)
+            .map(|side| {
+                // V_CE = (V_supply − I_C RC) − (V_B − V_BE) + small signal;
+                // the base's DC level arrives through the small-signal path.
+                let rc = point.value(self.load[side]);
+                let bias = headroom.supply - currents[side] * rc + headroom.input_drop;
+                let c = nodes.collectors[side];
+                let e = nodes.emitters[side];
+                Probe {
+                    name: format!("Q{} collector-emitter", side + 1),
+                    coefficients: [c[0] - e[0], c[1] - e[1]],
+                    bias,
+                    low: headroom.saturation,
+                    high: f64::INFINITY,
+                }
+            })
+            .collect()
     }
 
     fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {

@@ -10,7 +10,7 @@
 //! resistance and capacitance to ground, which load the source network.
 //! The output is single-ended against the reference (ground).
 
-use super::{PinShunt, Point, SingularStage, StageSolve};
+use super::{PinShunt, Point, Probe, SingularStage, StageSolve, VoltageRange};
 use crate::engine::linalg::{Mat2, C64, ONE, ZERO};
 use crate::model::ParamId;
 
@@ -57,6 +57,10 @@ pub struct IntegratedInAmp {
     pub bandwidth_hz: Option<ParamId>,
     /// The input pins' shunts to ground.
     pub pins: [PinShunt; 2],
+    /// The input common-mode range, for the headroom check.
+    pub input_range: Option<VoltageRange>,
+    /// The output swing, for the headroom check.
+    pub output_swing: Option<VoltageRange>,
 }
 
 impl StageSolve for IntegratedInAmp {
@@ -82,6 +86,18 @@ impl StageSolve for IntegratedInAmp {
             ZERO,
         ))
     }
+
+    fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
+        let mut probes = Vec::new();
+        if let Some(range) = self.input_range {
+            probes.push(range.probe("p input", [ONE, ZERO], 0.0));
+            probes.push(range.probe("n input", [ZERO, ONE], 0.0));
+        }
+        if let (Some(range), Ok(transfer)) = (self.output_swing, self.transfer(point, load)) {
+            probes.push(range.probe("output", transfer.0[0], 0.0));
+        }
+        probes
+    }
 }
 
 #[cfg(test)]
@@ -99,6 +115,8 @@ mod tests {
             cmrr_corner_hz: Some(ParamId(2)),
             bandwidth_hz: None,
             pins: [PinShunt::default(); 2],
+            input_range: None,
+            output_swing: None,
         };
         let dc = MixedMode::from_nodes(
             &amp.transfer(&Point::new(0.0, &values), &Mat2::ZERO)

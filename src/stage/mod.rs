@@ -26,7 +26,8 @@ mod three_opamp_inamp;
 pub use adc::Adc;
 pub use difference_amp::DifferenceAmp;
 pub use differential_pair::{
-    DifferentialPair, PairDevice, PairOutput, PairSmallSignal, Tail, TailKind, K_OVER_Q,
+    DifferentialPair, PairDevice, PairHeadroom, PairOutput, PairSmallSignal, Tail, TailKind,
+    K_OVER_Q,
 };
 pub use integrated_inamp::{GainSetting, IntegratedInAmp};
 pub use opamp::OpAmp;
@@ -89,6 +90,52 @@ pub trait StageSolve {
     /// The transfer from its input pin voltages to its output node voltages,
     /// given the admittance `load` of what it drives.
     fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage>;
+
+    /// Internal and output nodes whose voltage must stay within a range
+    /// (input common-mode ranges, output swings, transistor saturation),
+    /// each as a linear function of the stage's input pin voltages plus a
+    /// bias. Stages with no stated ranges have none.
+    fn probes(&self, _point: &Point, _load: &Mat2) -> Vec<Probe> {
+        Vec::new()
+    }
+}
+
+/// A node voltage to keep within limits: `bias + coefficients · [v_p, v_n]`
+/// must stay within `[low, high]`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Probe {
+    /// What the node is, e.g. `A1 output` or `Q1 collector-emitter`.
+    pub name: String,
+    /// Its small-signal voltage per volt at the stage's p and n pins.
+    pub coefficients: [C64; 2],
+    /// Its DC operating-point voltage beyond the signal, in volts.
+    pub bias: f64,
+    /// The lowest allowed voltage.
+    pub low: f64,
+    /// The highest allowed voltage.
+    pub high: f64,
+}
+
+/// A voltage range, low to high, in volts.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct VoltageRange {
+    /// The lowest voltage.
+    pub low: f64,
+    /// The highest voltage.
+    pub high: f64,
+}
+
+impl VoltageRange {
+    /// A probe on this range.
+    pub fn probe(&self, name: impl Into<String>, coefficients: [C64; 2], bias: f64) -> Probe {
+        Probe {
+            name: name.into(),
+            coefficients,
+            bias,
+            low: self.low,
+            high: self.high,
+        }
+    }
 }
 
 /// A stage of the chain, with the label the user gave it.
@@ -155,5 +202,9 @@ impl StageSolve for StageKind {
 
     fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
         self.solver().transfer(point, load)
+    }
+
+    fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
+        self.solver().probes(point, load)
     }
 }

@@ -10,7 +10,7 @@
 //! the input common mode. The output is an ideal voltage source and the
 //! inputs draw no current.
 
-use super::Point;
+use super::{Point, VoltageRange};
 use crate::engine::linalg::{C64, ZERO};
 use crate::model::ParamId;
 
@@ -25,6 +25,10 @@ pub struct OpAmp {
     pub cmrr_reciprocal: Option<ParamId>,
     /// The frequency above which the CMRR falls 20 dB/decade (none: flat).
     pub cmrr_corner_hz: Option<ParamId>,
+    /// The input common-mode range, for the headroom check.
+    pub input_range: Option<VoltageRange>,
+    /// The output swing, for the headroom check.
+    pub output_swing: Option<VoltageRange>,
 }
 
 impl OpAmp {

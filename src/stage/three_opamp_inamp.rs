@@ -20,7 +20,7 @@
 //! (checked in the tests). Op-amp outputs are ideal sources, so the
 //! difference stage does not load the first.
 
-use super::{DifferenceAmp, OpAmp, PinShunt, Point, SingularStage, StageSolve};
+use super::{DifferenceAmp, OpAmp, PinShunt, Point, Probe, SingularStage, StageSolve};
 use crate::engine::linalg::{Mat2, NodalSystem, Node, C64};
 use crate::model::ParamId;
 
@@ -86,6 +86,38 @@ impl StageSolve for ThreeOpAmpInAmp {
         let first = self.first_stage_transfer(point)?;
         let second = self.difference_stage.transfer(point, load)?;
         Ok(second * first)
+    }
+
+    fn probes(&self, point: &Point, _load: &Mat2) -> Vec<Probe> {
+        let Ok(first) = self.first_stage_transfer(point) else {
+            return Vec::new();
+        };
+        let one = C64::new(1.0, 0.0);
+        let zero = C64::new(0.0, 0.0);
+        let mut probes = Vec::new();
+        for (side, opamp) in self.first_stage.iter().enumerate() {
+            let name = if side == 0 { "A1" } else { "A2" };
+            if let Some(range) = opamp.input_range {
+                let pin = if side == 0 { [one, zero] } else { [zero, one] };
+                probes.push(range.probe(format!("{name} inputs"), pin, 0.0));
+            }
+            if let Some(range) = opamp.output_swing {
+                probes.push(range.probe(format!("{name} output"), first.0[side], 0.0));
+            }
+        }
+        // A3's nodes, per volt at o1 and o2, carried back to the pins.
+        for probe in self.difference_stage.opamp_probes(point, "A3") {
+            let [a, b] = probe.coefficients;
+            let through = [
+                a * first.0[0][0] + b * first.0[1][0],
+                a * first.0[0][1] + b * first.0[1][1],
+            ];
+            probes.push(Probe {
+                coefficients: through,
+                ..probe
+            });
+        }
+        probes
     }
 }
 

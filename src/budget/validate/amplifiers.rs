@@ -10,6 +10,7 @@ use crate::model::{ParamId, Parameter, Presentation, Variation};
 use crate::quantity::Dimension;
 use crate::stage::{
     Adc, DifferenceAmp, GainSetting, IntegratedInAmp, OpAmp, PinShunt, StageKind, ThreeOpAmpInAmp,
+    VoltageRange,
 };
 
 impl Validator<'_> {
@@ -187,12 +188,18 @@ impl Validator<'_> {
         if self.problems.len() > problems_before {
             return None;
         }
+        let input_range =
+            self.voltage_range(raw.input_range.as_deref(), &format!("{path}.input_range"));
+        let output_swing =
+            self.voltage_range(raw.output_swing.as_deref(), &format!("{path}.output_swing"));
         Some(StageKind::IntegratedInAmp(IntegratedInAmp {
             gain: gain?,
             cmrr_reciprocal,
             cmrr_corner_hz,
             bandwidth_hz,
             pins,
+            input_range,
+            output_swing,
         }))
     }
 
@@ -254,6 +261,57 @@ impl Validator<'_> {
             span_volts: span.value,
             bits: raw.bits,
         }))
+    }
+
+    /// A `[low, high]` voltage range.
+    pub(super) fn voltage_range(
+        &mut self,
+        raw: Option<&[Scalar]>,
+        path: &str,
+    ) -> Option<VoltageRange> {
+        let raw = raw?;
+        if raw.len() != 2 {
+            self.problem(
+                path,
+                format!(
+                    "a range has two voltages, low then high; {} given",
+                    raw.len()
+                ),
+                "write e.g. `[-4.8 V, 4.8 V]`",
+            );
+            return None;
+        }
+        let mut ends = [0.0; 2];
+        for (i, (end, text)) in ends.iter_mut().zip(raw).enumerate() {
+            let q = match crate::quantity::parse_quantity(&text.0, Dimension::Voltage) {
+                Ok(q) if q.form.is_none() && q.tolerance.is_none() => q,
+                Ok(_) => {
+                    self.problem(
+                        &format!("{path}[{i}]"),
+                        format!("`{}` is not a plain voltage", text.0.trim()),
+                        "write a DC voltage against ground, e.g. `-4.8 V`",
+                    );
+                    return None;
+                }
+                Err(error) => {
+                    self.problem(&format!("{path}[{i}]"), error.to_string(), error.fix());
+                    return None;
+                }
+            };
+            *end = q.value;
+        }
+        if ends[0] >= ends[1] {
+            self.problem(
+                path,
+                "the range's low end is not below its high end",
+                "write `[low, high]`, e.g. `[-4.8 V, 4.8 V]`",
+            );
+            return None;
+        }
+        Some(VoltageRange {
+            low: ends[0],
+            high: ends[1],
+        })
     }
 
     /// `gain`, or `gain_resistor` with `gain_law`.
@@ -507,6 +565,10 @@ impl Validator<'_> {
             gain_bandwidth_hz,
             cmrr_reciprocal,
             cmrr_corner_hz,
+            input_range: self
+                .voltage_range(raw.input_range.as_deref(), &format!("{path}.input_range")),
+            output_swing: self
+                .voltage_range(raw.output_swing.as_deref(), &format!("{path}.output_swing")),
         }
     }
 }

@@ -6,7 +6,9 @@ use crate::budget::raw::{
 };
 use crate::model::{ParamId, Parameter, Presentation, Variation};
 use crate::quantity::Dimension;
-use crate::stage::{DifferentialPair, PairDevice, PairOutput, StageKind, Tail, TailKind};
+use crate::stage::{
+    DifferentialPair, PairDevice, PairHeadroom, PairOutput, StageKind, Tail, TailKind,
+};
 
 /// The device temperature when the file gives none, in kelvin; at 300 K,
 /// kT/q = 25.85 mV.
@@ -192,6 +194,7 @@ impl Validator<'_> {
         );
         let temperature =
             self.device_temperature(raw.temperature.as_ref(), &field("temperature"), stage);
+        let headroom = self.pair_headroom(raw, path, tail_current.is_some());
         let tail = self.tail(
             &raw.tail,
             &field("tail"),
@@ -215,6 +218,7 @@ impl Validator<'_> {
                 RawPairOutput::SingleEnded => PairOutput::SingleEnded,
             },
             temperature: temperature?,
+            headroom,
         }))
     }
 
@@ -276,6 +280,63 @@ impl Validator<'_> {
             }
             (None, None) => Some(fixed(self, DEFAULT_DEVICE_TEMPERATURE_K)),
         }
+    }
+
+    /// `supply`, `input_drop` and `saturation`, all or none.
+    fn pair_headroom(
+        &mut self,
+        raw: &RawDifferentialPair,
+        path: &str,
+        has_current: bool,
+    ) -> Option<PairHeadroom> {
+        let fields = [
+            ("supply", &raw.supply),
+            ("input_drop", &raw.input_drop),
+            ("saturation", &raw.saturation),
+        ];
+        let given = fields.iter().filter(|(_, v)| v.is_some()).count();
+        if given == 0 {
+            return None;
+        }
+        if given < 3 {
+            let missing: Vec<&str> = fields
+                .iter()
+                .filter(|(_, v)| v.is_none())
+                .map(|(n, _)| *n)
+                .collect();
+            self.problem(
+                path,
+                format!("the headroom check needs `supply`, `input_drop` and `saturation` together; missing: {}", missing.join(", ")),
+                "add them (e.g. `supply: 12 V`, `input_drop: 650 mV` for a BJT's Vbe, `saturation: 300 mV`), or remove the others",
+            );
+            return None;
+        }
+        if !has_current {
+            self.problem(
+                path,
+                "the headroom check needs the pair's `tail_current` to find the collector voltages",
+                "add `tail_current: …`",
+            );
+            return None;
+        }
+        let volts = |this: &mut Self, name: &str, value: &Option<Scalar>| {
+            let q = this.quantity(
+                value.as_ref()?,
+                &format!("{path}.{name}"),
+                Dimension::Voltage,
+                Range::NonNegative,
+                false,
+            )?;
+            Some(q.value)
+        };
+        let supply = volts(self, "supply", &raw.supply);
+        let input_drop = volts(self, "input_drop", &raw.input_drop);
+        let saturation = volts(self, "saturation", &raw.saturation);
+        Some(PairHeadroom {
+            supply: supply?,
+            input_drop: input_drop?,
+            saturation: saturation?,
+        })
     }
 
     /// A bound of unknown sign around zero.

@@ -1,0 +1,136 @@
+//! The headroom check: does every node with a stated range stay inside it,
+//! given the interference and the full-scale signal?
+//!
+//! Each stage names its probed nodes ([`Probe`]) as linear functions of its
+//! input pins. Carried back through the stages before it, a probe becomes a
+//! response to the sensor's (vdm, vcm). At nominal values, a node's extremes
+//! are its bias, plus the DC common modes (as written, positive), plus the
+//! peaks of every alternating source at its own frequency, plus the
+//! full-scale differential input either way. Adding the peaks is the worst
+//! case: sources at different frequencies line up at some instant.
+
+use super::chain::{stage_loads, EngineError};
+use super::linalg::{Mat2, C64};
+use crate::model::Budget;
+use crate::stage::{Point, StageSolve};
+
+/// A node that leaves its allowed range.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct HeadroomFinding {
+    /// The stage's label.
+    pub stage: String,
+    /// The node, e.g. `A1 output`.
+    pub node: String,
+    /// Its lowest voltage, in volts.
+    pub low_v: f64,
+    /// Its highest voltage, in volts.
+    pub high_v: f64,
+    /// The lowest allowed, in volts.
+    pub allowed_low_v: f64,
+    /// The highest allowed, in volts (null when unbounded).
+    pub allowed_high_v: Option<f64>,
+}
+
+/// A probe's response to the sensor, per volt of vdm and vcm.
+#[derive(Debug, Clone, Copy)]
+struct Response {
+    differential: C64,
+    common: C64,
+}
+
+/// A probe with its response to the sensor.
+#[derive(Debug, Clone)]
+struct ProbeResponse {
+    name: String,
+    bias: f64,
+    low: f64,
+    high: f64,
+    response: Response,
+}
+
+/// Per stage, per probe: its response at `freq_hz`.
+fn probe_responses(
+    budget: &Budget,
+    values: &[f64],
+    freq_hz: f64,
+) -> Result<Vec<Vec<ProbeResponse>>, EngineError> {
+    let point = Point::new(freq_hz, values);
+    let loads = stage_loads(&budget.chain, &point)?;
+    let mut upstream = Mat2::IDENTITY;
+    let mut all = Vec::new();
+    for (stage, load) in budget.chain.iter().zip(&loads) {
+        let mut stage_probes = Vec::new();
+        for probe in stage.kind.probes(&point, load) {
+            let [a, b] = probe.coefficients;
+            let per_emf = [
+                a * upstream.0[0][0] + b * upstream.0[1][0],
+                a * upstream.0[0][1] + b * upstream.0[1][1],
+            ];
+            // (e_p, e_n) = (vcm + vdm/2, vcm − vdm/2).
+            let response = Response {
+                differential: (per_emf[0] - per_emf[1]) / 2.0,
+                common: per_emf[0] + per_emf[1],
+            };
+            stage_probes.push(ProbeResponse {
+                name: probe.name,
+                bias: probe.bias,
+                low: probe.low,
+                high: probe.high,
+                response,
+            });
+        }
+        all.push(stage_probes);
+        upstream = stage.kind.transfer(&point, load)? * upstream;
+    }
+    Ok(all)
+}
+
+/// Check every probed node of the chain at nominal values.
+pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineError> {
+    let values = budget.parameters.nominal_values();
+    let at_dc = probe_responses(budget, &values, 0.0)?;
+    let mut ac: Vec<(f64, Vec<Vec<ProbeResponse>>)> = Vec::new();
+    for source in budget.interference.iter().filter(|s| s.frequency_hz > 0.0) {
+        ac.push((
+            source.amplitude.peak_volts(),
+            probe_responses(budget, &values, source.frequency_hz)?,
+        ));
+    }
+    let dc_common: f64 = budget
+        .interference
+        .iter()
+        .filter(|s| s.frequency_hz == 0.0)
+        .map(|s| s.amplitude.volts)
+        .sum();
+    let full_scale = budget
+        .requirement
+        .as_ref()
+        .and_then(|r| r.full_scale_volts)
+        .unwrap_or(0.0);
+    let mut findings = Vec::new();
+    for (stage_index, stage_probes) in at_dc.iter().enumerate() {
+        for (probe_index, probe) in stage_probes.iter().enumerate() {
+            let dc = probe.response;
+            let centre = probe.bias + (dc.common * dc_common).re;
+            let swing: f64 = ac
+                .iter()
+                .map(|(peak, responses)| {
+                    responses[stage_index][probe_index].response.common.norm() * peak
+                })
+                .sum::<f64>()
+                + dc.differential.norm() * full_scale;
+            let (lowest, highest) = (centre - swing, centre + swing);
+            if lowest < probe.low || highest > probe.high {
+                findings.push(HeadroomFinding {
+                    stage: budget.chain[stage_index].label.clone(),
+                    node: probe.name.clone(),
+                    low_v: lowest,
+                    high_v: highest,
+                    allowed_low_v: probe.low,
+                    allowed_high_v: probe.high.is_finite().then_some(probe.high),
+                });
+            }
+        }
+    }
+    Ok(findings)
+}
