@@ -30,6 +30,11 @@ fn expected_status(name: &str) -> i32 {
     match name {
         "load-cell-scale.yaml" => 0,
         "motor-shunt.yaml" => 1,
+        "bridge-three-opamp.yaml" => 1,
+        "bridge-integrated-inamp.yaml" => 0,
+        "bjt-pair-resistor-tail.yaml" => 1,
+        "bjt-pair-current-source-tail.yaml" => 1,
+        "ecg-electrodes.yaml" => 1,
         other => panic!("example {other} has no expected exit status in tests/cli.rs"),
     }
 }
@@ -303,4 +308,49 @@ fn hazardous_and_patient_budgets_carry_cautions() {
         .any(|c| c.as_str().unwrap().contains("patient-connected")));
     // A matched ideal stage: infinite CMRR is written "inf".
     assert_eq!(report["results"][0]["cmrr_db"]["worst_case"], "inf");
+}
+
+/// Issue 3: a limit set on an interference source alone, with no
+/// requirement section, was ignored; it must be checked and decide the exit
+/// status.
+#[test]
+fn issue_3_source_limit_without_requirement_section() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("limit.yaml");
+    fs::write(
+        &file,
+        "name: own limit\nchain:\n  - difference_amp: {r1: 10k ±1 %, r2: 10k ±1 %, r3: 10k ±1 %, r4: 10k ±1 %}\ninterference:\n  - {name: hum, amplitude: 1 V rms, frequency: 50 Hz, max_error: 1 uV rms}\n",
+    )
+    .unwrap();
+    cmrr()
+        .args(["budget", file.to_str().unwrap()])
+        .assert()
+        .code(1)
+        .stdout(predicates::str::contains("error RTI ≤ 1.00 µV rms"));
+}
+
+#[test]
+fn new_stage_examples_report_their_facts() {
+    let run = |name: &str| {
+        let output = cmrr()
+            .current_dir(repository())
+            .args(["budget", &format!("budgets/{name}"), "--format", "json"])
+            .output()
+            .unwrap();
+        serde_json::from_slice::<serde_json::Value>(&output.stdout).unwrap()
+    };
+    let pair = run("bjt-pair-current-source-tail.yaml");
+    let facts = pair["facts"].as_array().unwrap();
+    assert!(facts
+        .iter()
+        .any(|f| f.as_str().unwrap().contains("tail output resistance")));
+    let integrated = run("bridge-integrated-inamp.yaml");
+    let findings = integrated["headroom"].as_array().unwrap();
+    assert!(
+        findings.iter().any(|f| f["node"] == "output"),
+        "{findings:?}"
+    );
+    assert!(integrated["results"][0]["error_lsb"]["worst_case"].is_number());
+    assert_eq!(integrated["measurand_unit"], "kg");
+    assert!(integrated["results"][0]["at_temperature"]["temperature_k"].is_number());
 }

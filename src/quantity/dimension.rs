@@ -39,6 +39,8 @@ pub enum Dimension {
     Decibels,
     /// A voltage gain: decibels, or a plain ratio in V/V.
     Gain,
+    /// A plain number with no unit (a current gain β, a count).
+    Number,
 }
 
 impl Dimension {
@@ -62,6 +64,7 @@ impl Dimension {
             }
             Dimension::Decibels => "a ratio in decibels (dB, e.g. `110 dB`)",
             Dimension::Gain => "a gain (dB or V/V, e.g. `120 dB`, `1M`)",
+            Dimension::Number => "a plain number (e.g. `200`)",
         }
     }
 
@@ -83,6 +86,7 @@ impl Dimension {
             Dimension::TemperatureCoefficient => "ppm/K",
             Dimension::Decibels => "dB",
             Dimension::Gain => "V/V",
+            Dimension::Number => "",
         }
     }
 
@@ -95,7 +99,7 @@ impl Dimension {
     pub fn accepts_bare_number(self) -> bool {
         matches!(
             self,
-            Dimension::Resistance | Dimension::Capacitance | Dimension::Gain
+            Dimension::Resistance | Dimension::Capacitance | Dimension::Gain | Dimension::Number
         )
     }
 }
@@ -118,6 +122,7 @@ impl fmt::Display for Dimension {
             Dimension::TemperatureCoefficient => "temperature coefficient",
             Dimension::Decibels => "decibel ratio",
             Dimension::Gain => "gain",
+            Dimension::Number => "number",
         };
         f.write_str(name)
     }

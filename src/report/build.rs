@@ -1,7 +1,7 @@
 //! Building the report from a validated budget.
 
 use super::cautions::cautions;
-use super::checks::{cmrr_checks, error_check, outcome, same_frequency};
+use super::checks::{cmrr_checks, error_check, judged_on, outcome, same_frequency};
 use super::facts::{facts, remarks};
 use super::{
     ContributionKind, ContributionRow, Corner, Db, FrequencyResult, Report, SourceResult,
@@ -234,13 +234,10 @@ fn source_result(
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, &judged.map(Db::from_conversion)))
         .unwrap_or_default();
-    if let (Some(requirement), Some(limit)) = (
-        requirement,
-        source.max_error.or(requirement.and_then(|r| r.max_error)),
-    ) {
+    if let Some(limit) = source.max_error.or(requirement.and_then(|r| r.max_error)) {
         checks.push(error_check(
             &limit,
-            judged.judged(requirement.judged_on) * source.amplitude.peak_volts(),
+            judged.judged(judged_on(requirement)) * source.amplitude.peak_volts(),
         ));
     }
     SourceResult {

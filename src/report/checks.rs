@@ -2,7 +2,7 @@
 //! source, and the outcome with its margin.
 
 use super::{Check, Db, RequirementOutcome, Totals};
-use crate::model::{describe_volts, Amplitude, ErrorLimit, Requirement};
+use crate::model::{describe_volts, Amplitude, ErrorLimit, Judgement, Requirement};
 use crate::quantity::{format_db, format_fraction, format_si};
 
 /// Two frequencies closer than this (relative) are the same point.
@@ -17,7 +17,6 @@ pub(super) fn outcome(
     requirement: Option<&Requirement>,
     checks: Vec<Check>,
 ) -> Option<RequirementOutcome> {
-    let requirement = requirement?;
     if checks.is_empty() {
         return None;
     }
@@ -28,9 +27,16 @@ pub(super) fn outcome(
     Some(RequirementOutcome {
         met: checks.iter().all(|c| c.met),
         margin_db: margin,
-        judged_on: requirement.judged_on,
+        judged_on: judged_on(requirement),
         checks,
     })
+}
+
+/// The total a requirement is judged on: as the requirement says, or the
+/// worst case when a source sets its own limit and there is no requirement
+/// section.
+pub(super) fn judged_on(requirement: Option<&Requirement>) -> Judgement {
+    requirement.map_or(Judgement::WorstCase, |r| r.judged_on)
 }
 
 pub(super) fn cmrr_checks(

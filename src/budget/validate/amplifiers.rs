@@ -7,7 +7,7 @@ use crate::budget::raw::{
     RawThreeOpAmpInAmp, Scalar,
 };
 use crate::model::{ParamId, Parameter, Presentation, Variation};
-use crate::quantity::Dimension;
+use crate::quantity::{format_si, Dimension};
 use crate::stage::{
     Adc, DifferenceAmp, GainSetting, IntegratedInAmp, OpAmp, PinShunt, StageKind, ThreeOpAmpInAmp,
     VoltageRange,
@@ -420,9 +420,10 @@ impl Validator<'_> {
             self.problem(
                 &format!("{path}.cmrr_by_gain"),
                 format!(
-                    "the configured gain ({gain:.4} V/V) lies outside the table ({:.4} to {:.4} V/V)",
-                    10f64.powf(first.0),
-                    10f64.powf(last.0)
+                    "the configured gain ({}) lies outside the table ({} to {})",
+                    format_si(gain, "V/V"),
+                    format_si(10f64.powf(first.0), "V/V"),
+                    format_si(10f64.powf(last.0), "V/V")
                 ),
                 "add a row for the gain in use from the data sheet; the tool does not extrapolate a minimum",
             );

@@ -234,7 +234,7 @@ impl Validator<'_> {
                 let capacity = self.quantity(
                     &bridge.capacity,
                     "measurand.bridge.capacity",
-                    Dimension::Gain,
+                    Dimension::Number,
                     Range::Positive,
                     false,
                 );

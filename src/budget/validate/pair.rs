@@ -91,7 +91,7 @@ impl Validator<'_> {
         };
         let device = match raw.device {
             RawPairDevice::Bjt => {
-                let beta = legs(self, &raw.beta, "beta", Dimension::Gain, "β");
+                let beta = legs(self, &raw.beta, "beta", Dimension::Number, "β");
                 let early = legs(
                     self,
                     &raw.early_voltage,
@@ -432,7 +432,7 @@ impl Validator<'_> {
                 self.part(
                     b,
                     &format!("{device_path}.beta"),
-                    Dimension::Gain,
+                    Dimension::Number,
                     "tail β".into(),
                     stage,
                 )
