@@ -563,3 +563,39 @@ fn resistor_drift_separate_parts_and_network() {
         .unwrap();
     assert!(shared.magnitude() < 1e-12, "{}", shared.magnitude());
 }
+
+/// MOS pair with a transconductance mismatch and differential output:
+/// CMRR ≈ (1 + 2 gm R_SS)/(Δgm/gm). Razavi, Design of Analog CMOS
+/// Integrated Circuits, 2nd ed., 2017, Sec. 4.3 (from memory). Here
+/// gm = 2 I_D/Vov = 5 mS, R_SS = 20 kΩ, Δgm/gm = 1 %, r_o → ∞.
+#[test]
+fn mos_pair_gm_mismatch() {
+    let b = pair("      device: mosfet\n      tail_current: 1 mA\n      overdrive: 200 mV\n      early_voltage: 1e12 V\n      gm_mismatch: 1 %\n      load_resistance: 5k\n      output: differential\n      tail: {resistor: 20k}\n");
+    let analysis = at(&b, 0.0);
+    let gm = 2.0 * 0.5e-3 / 0.2;
+    let expected = (1.0 + 2.0 * gm * 20e3) / 0.01;
+    assert_relative_eq!(1.0 / analysis.worst_case(), expected, max_relative = 0.01);
+}
+
+/// A later stage's conversion is referred to the input through the stages
+/// before it: a converter's own 1/CMRR arrives multiplied by Acc/Add of
+/// what precedes it. Pallas-Areny and Webster 1991 (cascaded stages, as
+/// above).
+#[test]
+fn converter_cmrr_referred_through_the_gain_ahead() {
+    let front = "      device: small_signal\n      gm: 20 mS\n      load_resistance: 10k\n      output: differential\n      tail: {output_resistance: 100k}\n";
+    let with_adc = budget(&format!(
+        "  - differential_pair:\n{front}  - adc: {{span: 5 V, bits: 16, cmrr: 80 dB}}\n"
+    ));
+    let alone = pair(front);
+    let values = alone.parameters.nominal_values();
+    let response = chain_response(&alone.chain, &Point::new(0.0, &values)).unwrap();
+    let analysis = at(&with_adc, 0.0);
+    let adc = analysis
+        .contributions
+        .iter()
+        .find(|c| with_adc.parameters.get(c.param).name == "converter CMRR")
+        .unwrap();
+    let expected = 1e-4 * (response.cc / response.dd).norm();
+    assert_relative_eq!(adc.magnitude(), expected, max_relative = 1e-6);
+}
