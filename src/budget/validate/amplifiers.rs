@@ -158,24 +158,13 @@ impl Validator<'_> {
             (None, true) => None,
         };
         let cmrr_reciprocal = cmrr_db.map(|db| self.cmrr_bound(db, path, stage, "in-amp CMRR"));
-        let cmrr_corner_hz = raw.cmrr_corner.as_ref().and_then(|c| {
-            let corner_path = format!("{path}.cmrr_corner");
-            if cmrr_reciprocal.is_none() {
-                self.problem(
-                    &corner_path,
-                    "a CMRR corner is given without a CMRR",
-                    "add `cmrr: …` or `cmrr_by_gain: […]`, or remove `cmrr_corner`",
-                );
-                return None;
-            }
-            self.fixed(
-                c,
-                &corner_path,
-                Dimension::Frequency,
-                "in-amp CMRR corner".into(),
-                stage,
-            )
-        });
+        let cmrr_corner_hz = self.cmrr_corner(
+            raw.cmrr_corner.as_ref(),
+            cmrr_reciprocal.is_some(),
+            path,
+            stage,
+            "in-amp CMRR corner",
+        );
         let bandwidth_hz = raw.bandwidth.as_ref().and_then(|b| {
             self.fixed(
                 b,
@@ -224,24 +213,13 @@ impl Validator<'_> {
             let db = self.cmrr_db(c, &format!("{path}.cmrr"))?;
             Some(self.cmrr_bound(db, path, stage, "converter CMRR"))
         });
-        let cmrr_corner_hz = raw.cmrr_corner.as_ref().and_then(|c| {
-            let corner_path = format!("{path}.cmrr_corner");
-            if cmrr_reciprocal.is_none() {
-                self.problem(
-                    &corner_path,
-                    "a CMRR corner is given without a CMRR",
-                    "add `cmrr: …`, or remove `cmrr_corner`",
-                );
-                return None;
-            }
-            self.fixed(
-                c,
-                &corner_path,
-                Dimension::Frequency,
-                "converter CMRR corner".into(),
-                stage,
-            )
-        });
+        let cmrr_corner_hz = self.cmrr_corner(
+            raw.cmrr_corner.as_ref(),
+            cmrr_reciprocal.is_some(),
+            path,
+            stage,
+            "converter CMRR corner",
+        );
         if self.problems.len() > problems_before {
             return None;
         }
@@ -440,6 +418,35 @@ impl Validator<'_> {
         Some(lo.1 + (hi.1 - lo.1) * (x - lo.0) / (hi.0 - lo.0))
     }
 
+    /// The corner above which a CMRR falls 20 dB/decade; refused when no
+    /// CMRR is given.
+    fn cmrr_corner(
+        &mut self,
+        raw: Option<&Scalar>,
+        has_cmrr: bool,
+        path: &str,
+        stage: usize,
+        name: &str,
+    ) -> Option<ParamId> {
+        let corner = raw?;
+        let corner_path = format!("{path}.cmrr_corner");
+        if !has_cmrr {
+            self.problem(
+                &corner_path,
+                "a CMRR corner is given without a CMRR",
+                "add the DC minimum CMRR (e.g. `cmrr: 100 dB`), or remove `cmrr_corner`",
+            );
+            return None;
+        }
+        self.fixed(
+            corner,
+            &corner_path,
+            Dimension::Frequency,
+            name.into(),
+            stage,
+        )
+    }
+
     /// A CMRR in dB, above 0 dB.
     fn cmrr_db(&mut self, scalar: &Scalar, path: &str) -> Option<f64> {
         let q = self.quantity(scalar, path, Dimension::Decibels, Range::Positive, false)?;
@@ -543,24 +550,13 @@ impl Validator<'_> {
             let db = self.cmrr_db(c, &format!("{path}.cmrr"))?;
             Some(self.cmrr_bound(db, path, stage, &format!("{who} CMRR")))
         });
-        let cmrr_corner_hz = raw.cmrr_corner.as_ref().and_then(|c| {
-            let corner_path = format!("{path}.cmrr_corner");
-            if raw.cmrr.is_none() {
-                self.problem(
-                    &corner_path,
-                    "a CMRR corner is given without a CMRR",
-                    "add `cmrr: …` (the DC minimum, e.g. `100 dB`) or remove `cmrr_corner`",
-                );
-                return None;
-            }
-            self.fixed(
-                c,
-                &corner_path,
-                Dimension::Frequency,
-                format!("{who} CMRR corner"),
-                stage,
-            )
-        });
+        let cmrr_corner_hz = self.cmrr_corner(
+            raw.cmrr_corner.as_ref(),
+            raw.cmrr.is_some(),
+            path,
+            stage,
+            &format!("{who} CMRR corner"),
+        );
         OpAmp {
             open_loop_gain,
             gain_bandwidth_hz,
