@@ -4,6 +4,8 @@
 pub mod budget;
 pub mod engine;
 pub mod model;
+pub mod plot;
 pub mod quantity;
 pub mod report;
 pub mod stage;
+pub mod sweep;

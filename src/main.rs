@@ -3,11 +3,24 @@
 //! 0 requirement met (or none stated), 1 requirement missed, 2 bad input or
 //! usage.
 
-use clap::{Parser, Subcommand, ValueEnum};
+use clap::{Args, Parser, Subcommand, ValueEnum};
 use cmrr_budget::budget::load_budget;
-use cmrr_budget::report::{
-    build_report, csv::render_csv, json::render_json, table::render_table, Report,
+use cmrr_budget::model::Budget;
+use cmrr_budget::plot::{plot_overlay, OverlaySeries};
+use cmrr_budget::quantity::{format_si, parse_quantity, Dimension};
+use cmrr_budget::report::compare::{
+    build_compare_report, render_compare_csv, render_compare_table,
 };
+use cmrr_budget::report::sweep::{
+    build_sweep_report, render_sweep_chart, render_sweep_csv, render_sweep_svg, render_sweep_table,
+};
+use cmrr_budget::report::{
+    build_report, csv::render_csv, json::render_json, table::render_table, Db, Report,
+};
+use cmrr_budget::sweep::{
+    run_sweep, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE, DEFAULT_TO_HZ,
+};
+use serde::Serialize;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -27,30 +40,84 @@ enum Command {
     Budget {
         /// The budget file (YAML).
         file: PathBuf,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = Format::Table)]
-        format: Format,
-        /// Write the report to this file instead of standard output.
-        #[arg(short = 'o', long = "output", value_name = "PATH")]
-        output: Option<PathBuf>,
-        /// Replace the output file if it already exists.
-        #[arg(long)]
-        force: bool,
+        #[command(flatten)]
+        output: OutputArgs,
     },
     /// Validate a budget file without computing it.
     Check {
         /// The budget file (YAML).
         file: PathBuf,
     },
+    /// Sweep the budget over frequency: the totals and every contributor's
+    /// CMRR at log-spaced frequencies, and where the dominant contributor
+    /// changes.
+    Sweep {
+        /// The budget file (YAML).
+        file: PathBuf,
+        #[command(flatten)]
+        range: RangeArgs,
+        #[command(flatten)]
+        output: OutputArgs,
+        /// Also draw the sweep as an SVG plot in this file.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
+        /// Print a compact text chart instead of the table.
+        #[arg(long)]
+        chart: bool,
+    },
+    /// Put several designs side by side: each interference source's CMRR,
+    /// error, margin and dominant contributor per design.
+    Compare {
+        /// Two or more budget files (YAML), in the order to show them.
+        #[arg(required = true, num_args = 2..)]
+        files: Vec<PathBuf>,
+        #[command(flatten)]
+        output: OutputArgs,
+        /// Also draw the designs' worst-case CMRR against frequency, overlaid,
+        /// as an SVG plot in this file.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
+        #[command(flatten)]
+        range: RangeArgs,
+    },
 }
 
-#[derive(Debug, Clone, Copy, ValueEnum)]
+/// Where and how a report is written.
+#[derive(Debug, Args)]
+struct OutputArgs {
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = Format::Table)]
+    format: Format,
+    /// Write the report to this file instead of standard output.
+    #[arg(short = 'o', long = "output", value_name = "PATH")]
+    output: Option<PathBuf>,
+    /// Replace output files (report, plot) that already exist.
+    #[arg(long)]
+    force: bool,
+}
+
+/// A sweep range from the command line; parts left out come from the
+/// budget file, then the defaults (0.1 Hz to 1 MHz, 20 per decade).
+#[derive(Debug, Args)]
+struct RangeArgs {
+    /// Lowest frequency, e.g. `1 Hz`.
+    #[arg(long, value_name = "FREQ")]
+    from: Option<String>,
+    /// Highest frequency, e.g. `100 kHz`.
+    #[arg(long, value_name = "FREQ")]
+    to: Option<String>,
+    /// Points per decade.
+    #[arg(long, value_name = "N")]
+    per_decade: Option<u32>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 enum Format {
     /// Readable tables for a terminal.
     Table,
     /// The versioned JSON report (see README).
     Json,
-    /// One row per contributor and total, units in the headers.
+    /// Rows with units in the headers.
     Csv,
 }
 
@@ -72,50 +139,222 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> Result<u8, String> {
     match cli.command {
-        Command::Check { file } => {
-            let budget = load_budget(&file).map_err(|e| e.to_string())?;
-            let amplifiers = budget
-                .chain
-                .iter()
-                .filter(|s| s.kind.is_amplifier())
-                .count();
-            print_out(&format!(
-                "{}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} toleranced parameter(s)\n",
-                file.display(),
-                budget.name,
-                budget.chain.len(),
-                amplifiers,
-                budget.interference.len(),
-                budget.parameters.iter().filter(|(_, p)| p.varies()).count(),
-            ))?;
-            Ok(MET)
-        }
-        Command::Budget {
+        Command::Check { file } => check(&file),
+        Command::Budget { file, output } => budget(&file, &output),
+        Command::Sweep {
             file,
-            format,
+            range,
             output,
-            force,
-        } => {
-            if let Some(output) = &output {
-                check_output_path(output, &file, force)?;
+            plot,
+            chart,
+        } => sweep(&file, &range, &output, plot.as_deref(), chart),
+        Command::Compare {
+            files,
+            output,
+            plot,
+            range,
+        } => compare(&files, &output, plot.as_deref(), &range),
+    }
+}
+
+fn check(file: &Path) -> Result<u8, String> {
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let amplifiers = budget
+        .chain
+        .iter()
+        .filter(|s| s.kind.is_amplifier())
+        .count();
+    print_out(&format!(
+        "{}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} toleranced parameter(s)\n",
+        file.display(),
+        budget.name,
+        budget.chain.len(),
+        amplifiers,
+        budget.interference.len(),
+        budget.parameters.iter().filter(|(_, p)| p.varies()).count(),
+    ))?;
+    Ok(MET)
+}
+
+fn budget(file: &Path, output: &OutputArgs) -> Result<u8, String> {
+    output.check_paths(&[file], None)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let report = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
+    let text = match output.format {
+        Format::Table => render_table(&report),
+        Format::Json => render_json(&report),
+        Format::Csv => render_csv(&report),
+    };
+    output.emit(&text, &report.cautions)?;
+    Ok(exit_status(&report))
+}
+
+fn sweep(
+    file: &Path,
+    range: &RangeArgs,
+    output: &OutputArgs,
+    plot: Option<&Path>,
+    chart: bool,
+) -> Result<u8, String> {
+    if chart && output.format != Format::Table {
+        return Err(
+            "--chart draws on the terminal: use it with the table format, or drop it".into(),
+        );
+    }
+    output.check_paths(&[file], plot)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let spec = range.spec(Some(&budget))?;
+    let sweep = run_sweep(&budget, spec).map_err(|e| format!("{}: {e}", file.display()))?;
+    let report =
+        build_sweep_report(&budget, &sweep).map_err(|e| format!("{}: {e}", file.display()))?;
+    if let Some(path) = plot {
+        let svg = render_sweep_svg(&report).map_err(|e| e.to_string())?;
+        write_file(path, &svg)?;
+    }
+    let text = match (output.format, chart) {
+        (Format::Table, true) => render_sweep_chart(&report),
+        (Format::Table, false) => render_sweep_table(&report),
+        (Format::Json, _) => json(&report),
+        (Format::Csv, _) => render_sweep_csv(&report),
+    };
+    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    Ok(MET)
+}
+
+fn compare(
+    files: &[PathBuf],
+    output: &OutputArgs,
+    plot: Option<&Path>,
+    range: &RangeArgs,
+) -> Result<u8, String> {
+    let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
+    output.check_paths(&inputs, plot)?;
+    let mut budgets: Vec<(String, Budget)> = Vec::new();
+    for file in files {
+        let budget = load_budget(file).map_err(|e| e.to_string())?;
+        budgets.push((file.display().to_string(), budget));
+    }
+    let mut reports: Vec<(String, Report)> = Vec::new();
+    for (file, budget) in &budgets {
+        let report = build_report(budget).map_err(|e| format!("{file}: {e}"))?;
+        reports.push((file.clone(), report));
+    }
+    let borrowed: Vec<(String, &Report)> = reports.iter().map(|(f, r)| (f.clone(), r)).collect();
+    let comparison = build_compare_report(&borrowed);
+    if let Some(path) = plot {
+        let spec = range.spec(None)?;
+        let mut series = Vec::new();
+        let mut required = Vec::new();
+        let mut interference: Vec<(f64, String)> = Vec::new();
+        for ((file, budget), design) in budgets.iter().zip(&comparison.designs) {
+            let sweep = run_sweep(budget, spec).map_err(|e| format!("{file}: {e}"))?;
+            series.push(OverlaySeries {
+                label: design.label.clone(),
+                points: sweep
+                    .points
+                    .iter()
+                    .map(|p| (p.freq_hz, Db::from_conversion(p.worst_case).0))
+                    .collect(),
+            });
+            for minimum in budget.requirement.iter().flat_map(|r| r.min_cmrr.iter()) {
+                required.push((minimum.frequency_hz, minimum.cmrr_db));
             }
-            let budget = load_budget(&file).map_err(|e| e.to_string())?;
-            let report = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
-            let text = match format {
-                Format::Table => render_table(&report),
-                Format::Json => render_json(&report),
-                Format::Csv => render_csv(&report),
-            };
-            match &output {
-                Some(path) => {
-                    write_file(path, &text)?;
-                    for caution in &report.cautions {
-                        eprintln!("{caution}");
-                    }
+            for source in budget.interference.iter().filter(|s| s.frequency_hz > 0.0) {
+                if !interference
+                    .iter()
+                    .any(|(f, _)| (*f - source.frequency_hz).abs() <= 1e-9 * f.max(1.0))
+                {
+                    interference.push((source.frequency_hz, format_si(source.frequency_hz, "Hz")));
                 }
-                None => print_out(&text)?,
             }
-            Ok(exit_status(&report))
+        }
+        let svg = plot_overlay(
+            "worst-case CMRR, designs compared",
+            &series,
+            &required,
+            &interference,
+        )
+        .map_err(|e| e.to_string())?;
+        write_file(path, &svg)?;
+    }
+    let text = match output.format {
+        Format::Table => render_compare_table(&comparison),
+        Format::Json => json(&comparison),
+        Format::Csv => render_compare_csv(&comparison),
+    };
+    let cautions: Vec<String> = reports
+        .iter()
+        .flat_map(|(_, r)| r.cautions.iter().cloned())
+        .collect();
+    output.emit(&text, &cautions)?;
+    Ok(MET)
+}
+
+fn json<T: Serialize>(value: &T) -> String {
+    let mut text =
+        serde_json::to_string_pretty(value).expect("reports hold only strings, numbers and lists");
+    text.push('\n');
+    text
+}
+
+impl RangeArgs {
+    /// Options first, then the budget file's `sweep`, then the defaults.
+    fn spec(&self, budget: Option<&Budget>) -> Result<SweepSpec, String> {
+        let file = budget.map(|b| b.sweep).unwrap_or_default();
+        let frequency = |text: &Option<String>, option: &str| -> Result<Option<f64>, String> {
+            text.as_deref()
+                .map(|t| {
+                    parse_quantity(t, Dimension::Frequency)
+                        .map(|q| q.value)
+                        .map_err(|e| format!("option --{option}: {e}"))
+                })
+                .transpose()
+        };
+        Ok(SweepSpec {
+            from_hz: frequency(&self.from, "from")?
+                .or(file.from_hz)
+                .unwrap_or(DEFAULT_FROM_HZ),
+            to_hz: frequency(&self.to, "to")?
+                .or(file.to_hz)
+                .unwrap_or(DEFAULT_TO_HZ),
+            per_decade: self
+                .per_decade
+                .or(file.per_decade)
+                .unwrap_or(DEFAULT_PER_DECADE),
+        })
+    }
+}
+
+impl OutputArgs {
+    /// Refuse outputs that would overwrite an input, or an existing file
+    /// without `--force`.
+    fn check_paths(&self, inputs: &[&Path], plot: Option<&Path>) -> Result<(), String> {
+        for output in self.output.iter().map(PathBuf::as_path).chain(plot) {
+            check_output_path(output, inputs, self.force)?;
+        }
+        if let (Some(report), Some(plot)) = (&self.output, plot) {
+            if report == plot {
+                return Err(format!(
+                    "{}: the report and the plot cannot go to the same file",
+                    plot.display()
+                ));
+            }
+        }
+        Ok(())
+    }
+
+    /// Write the text to the output file, or print it; cautions also go to
+    /// standard error when the report goes to a file.
+    fn emit(&self, text: &str, cautions: &[String]) -> Result<(), String> {
+        match &self.output {
+            Some(path) => {
+                write_file(path, text)?;
+                for caution in cautions {
+                    eprintln!("{caution}");
+                }
+                Ok(())
+            }
+            None => print_out(text),
         }
     }
 }
@@ -141,16 +380,18 @@ fn print_out(text: &str) -> Result<(), String> {
     }
 }
 
-/// Refuse an output path that would overwrite the budget file itself, or an
+/// Refuse an output path that would overwrite a budget file, or an
 /// existing file without `--force`.
-fn check_output_path(output: &Path, input: &Path, force: bool) -> Result<(), String> {
-    let same = match (output.canonicalize(), input.canonicalize()) {
-        (Ok(a), Ok(b)) => a == b,
-        _ => false,
-    };
-    if same {
+fn check_output_path(output: &Path, inputs: &[&Path], force: bool) -> Result<(), String> {
+    let is_input = inputs.iter().any(
+        |input| match (output.canonicalize(), input.canonicalize()) {
+            (Ok(a), Ok(b)) => a == b,
+            _ => false,
+        },
+    );
+    if is_input {
         return Err(format!(
-            "{}: the output path is the budget file itself; choose another path with -o",
+            "{}: the output path is the budget file itself; choose another path",
             output.display()
         ));
     }
@@ -164,7 +405,7 @@ fn check_output_path(output: &Path, input: &Path, force: bool) -> Result<(), Str
 }
 
 /// Write through a temporary file beside the target and rename it into
-/// place, so a failure never leaves a half-written report.
+/// place, so a failure never leaves a half-written file.
 fn write_file(path: &Path, text: &str) -> Result<(), String> {
     let fail = |e: io::Error| format!("{}: cannot write the report: {e}", path.display());
     let directory = match path.parent() {

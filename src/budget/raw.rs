@@ -29,6 +29,20 @@ pub struct RawBudget {
     pub temperature: Option<RawTemperature>,
     #[serde(default)]
     pub measurand: Option<RawMeasurand>,
+    #[serde(default)]
+    pub sweep: Option<RawSweep>,
+}
+
+/// The default range of `cmrr sweep` for this budget.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawSweep {
+    #[serde(default)]
+    pub from: Option<Scalar>,
+    #[serde(default)]
+    pub to: Option<Scalar>,
+    #[serde(default)]
+    pub points_per_decade: Option<u32>,
 }
 
 /// The measured quantity, to express errors in its units.

@@ -23,10 +23,10 @@ use super::linalg::C64;
 use crate::model::{Budget, ParamId};
 use crate::stage::Point;
 
-/// Conversions below this magnitude (a CMRR above 280 dB) are beneath the
+/// Conversions below this magnitude (a CMRR above 240 dB) are beneath the
 /// resolution of a double-precision solve and are treated as exactly zero:
 /// a perfectly matched chain reports an infinite CMRR.
-pub const RESOLUTION_FLOOR: f64 = 1e-14;
+pub const RESOLUTION_FLOOR: f64 = 1e-12;
 
 fn resolved(magnitude: f64) -> f64 {
     if magnitude < RESOLUTION_FLOOR {

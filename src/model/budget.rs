@@ -27,6 +27,20 @@ pub struct Budget {
     pub temperature: Option<TemperatureRange>,
     /// The measured quantity, when given.
     pub measurand: Option<Measurand>,
+    /// The file's preferred sweep range (each part optional).
+    pub sweep: SweepRange,
+}
+
+/// A sweep range as the budget file states it; parts left out fall back to
+/// the command's options or the defaults.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct SweepRange {
+    /// Lowest frequency, Hz.
+    pub from_hz: Option<f64>,
+    /// Highest frequency, Hz.
+    pub to_hz: Option<f64>,
+    /// Points per decade.
+    pub per_decade: Option<u32>,
 }
 
 /// The quantity the sensor measures, to express errors in its units.

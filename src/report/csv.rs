@@ -113,7 +113,8 @@ fn number(value: f64) -> String {
     format!("{value}")
 }
 
-fn db(value: Db) -> String {
+/// A dB figure for CSV: six decimals, `inf` for an infinite ratio.
+pub(crate) fn db(value: Db) -> String {
     if value.0.is_infinite() {
         if value.0 > 0.0 {
             "inf".into()
@@ -126,7 +127,7 @@ fn db(value: Db) -> String {
 }
 
 /// Quote a field when it holds a comma, a quote or a line break.
-fn escape(field: &str) -> String {
+pub(crate) fn escape(field: &str) -> String {
     if field.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", field.replace('"', "\"\""))
     } else {

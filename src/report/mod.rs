@@ -5,12 +5,15 @@
 mod build;
 mod cautions;
 mod checks;
+pub mod compare;
 pub mod csv;
 mod facts;
 pub mod json;
+pub mod sweep;
 pub mod table;
 
 pub use build::build_report;
+pub use cautions::cautions as cautions_for;
 
 use crate::engine::HeadroomFinding;
 use crate::model::Judgement;

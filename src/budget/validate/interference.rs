@@ -1,9 +1,11 @@
 //! Validation of interference sources and the requirement.
 
 use super::{Range, Validator};
-use crate::budget::raw::{RawInterference, RawJudgement, RawMeasurand, RawRequirement, Scalar};
+use crate::budget::raw::{
+    RawInterference, RawJudgement, RawMeasurand, RawRequirement, RawSweep, Scalar,
+};
 use crate::model::{
-    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Requirement,
+    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Requirement, SweepRange,
 };
 use crate::quantity::{parse_quantity, Dimension};
 
@@ -253,5 +255,41 @@ impl Validator<'_> {
             unit,
             volts_per_unit,
         })
+    }
+
+    pub(super) fn sweep_range(&mut self, raw: &RawSweep) -> SweepRange {
+        let frequency = |this: &mut Self, value: &Option<Scalar>, field: &str| {
+            let q = this.quantity(
+                value.as_ref()?,
+                &format!("sweep.{field}"),
+                Dimension::Frequency,
+                Range::Positive,
+                false,
+            )?;
+            Some(q.value)
+        };
+        let from_hz = frequency(self, &raw.from, "from");
+        let to_hz = frequency(self, &raw.to, "to");
+        if let (Some(from), Some(to)) = (from_hz, to_hz) {
+            if to <= from {
+                self.problem(
+                    "sweep.to",
+                    "the sweep's upper end is not above its lower end",
+                    "write `from` below `to`, e.g. `from: 0.1 Hz, to: 1 MHz`",
+                );
+            }
+        }
+        if raw.points_per_decade == Some(0) {
+            self.problem(
+                "sweep.points_per_decade",
+                "a sweep needs at least one point per decade",
+                "give e.g. `points_per_decade: 20`",
+            );
+        }
+        SweepRange {
+            from_hz,
+            to_hz,
+            per_decade: raw.points_per_decade,
+        }
     }
 }

@@ -278,6 +278,11 @@ impl Validator<'_> {
             },
             temperature: self.temperature,
             measurand: raw.measurand.as_ref().and_then(|m| self.measurand(m)),
+            sweep: raw
+                .sweep
+                .as_ref()
+                .map(|s| self.sweep_range(s))
+                .unwrap_or_default(),
         }
     }
 
