@@ -73,13 +73,19 @@ pub struct RawTemperature {
     pub range: Vec<Scalar>,
 }
 
-/// Temperature coefficients of a stage's resistors: separate parts each
-/// within ±`tcr`, or one matched network.
+/// A stage's resistors as one matched network: a shared absolute
+/// tolerance, a ratio tolerance, and temperature coefficients.
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawNetwork {
-    pub tcr: Scalar,
-    pub tracking: Scalar,
+    #[serde(default)]
+    pub tolerance: Option<Scalar>,
+    #[serde(default)]
+    pub ratio_tolerance: Option<Scalar>,
+    #[serde(default)]
+    pub tcr: Option<Scalar>,
+    #[serde(default)]
+    pub tracking: Option<Scalar>,
 }
 
 /// One stage, written as a map with a single key naming its kind.

@@ -7,7 +7,7 @@
 //! fill a different slice: no stage is rebuilt, nothing is allocated per
 //! evaluation.
 
-use crate::quantity::{format_db, format_fraction, format_si, Dimension};
+use crate::quantity::{format_db, format_fraction, format_si, Dimension, SpreadShape};
 
 /// Index of a parameter in [`Parameters`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -59,6 +59,9 @@ pub struct Parameter {
     pub variation: Variation,
     /// How to print it.
     pub presentation: Presentation,
+    /// How it spreads in production, when the file names it; otherwise the
+    /// budget's default applies.
+    pub shape: Option<SpreadShape>,
 }
 
 impl Parameter {
@@ -113,17 +116,20 @@ impl Parameter {
     }
 }
 
-/// A parameter that follows temperature:
-/// `target = base × (1 + Σ coefficient_k × ΔT)`, ΔT being the excursion
-/// from the budget's reference temperature. A resistor's value with its own
-/// and its network's temperature coefficients, or a device temperature
+/// A parameter computed from others:
+/// `target = base × Π (1 + factor_j) × (1 + Σ coefficient_k × ΔT)`, ΔT
+/// being the excursion from the budget's reference temperature. A resistor
+/// in a matched network (its nominal, the network's shared error, its own
+/// ratio error) with its temperature coefficients, or a device temperature
 /// (coefficient 1/T_ref), are derived this way.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Derivation {
     /// The derived parameter.
     pub target: ParamId,
-    /// Its value at the reference temperature.
+    /// Its nominal value at the reference temperature.
     pub base: ParamId,
+    /// Relative errors (nominal 0) that multiply it.
+    pub factors: Vec<ParamId>,
     /// Temperature coefficients (1/K) that apply to it.
     pub coefficients: Vec<ParamId>,
 }
@@ -173,12 +179,14 @@ impl Parameters {
         &mut self,
         parameter: Parameter,
         base: ParamId,
+        factors: Vec<ParamId>,
         coefficients: Vec<ParamId>,
     ) -> ParamId {
         let target = self.add(parameter);
         self.derivations.push(Derivation {
             target,
             base,
+            factors,
             coefficients,
         });
         target
@@ -194,7 +202,13 @@ impl Parameters {
     pub fn resolve(&self, values: &mut [f64], delta_t: f64) {
         for derivation in &self.derivations {
             let coefficient: f64 = derivation.coefficients.iter().map(|c| values[c.0]).sum();
-            values[derivation.target.0] = values[derivation.base.0] * (1.0 + coefficient * delta_t);
+            let factor: f64 = derivation
+                .factors
+                .iter()
+                .map(|f| 1.0 + values[f.0])
+                .product();
+            values[derivation.target.0] =
+                values[derivation.base.0] * factor * (1.0 + coefficient * delta_t);
         }
     }
 
@@ -224,6 +238,7 @@ mod tests {
             nominal: 10e3,
             variation: Variation::Relative { tolerance },
             presentation: Presentation::Value(Dimension::Resistance),
+            shape: None,
         }
     }
 
@@ -237,6 +252,7 @@ mod tests {
             nominal: 0.0,
             variation: Variation::SignedBound { magnitude: 1e-5 },
             presentation: Presentation::ReciprocalCmrr,
+            shape: None,
             ..resistor(0.0)
         };
         assert_eq!(bound.describe(), "≥ 100.0 dB, sign unknown");

@@ -7,4 +7,4 @@ mod parse;
 
 pub use dimension::Dimension;
 pub use format::{format_db, format_fraction, format_si};
-pub use parse::{parse_quantity, AmplitudeForm, Quantity, QuantityError};
+pub use parse::{parse_quantity, AmplitudeForm, Quantity, QuantityError, SpreadShape};

@@ -74,6 +74,21 @@ pub struct Quantity {
     pub tolerance: Option<f64>,
     /// Whether the value was written in decibels.
     pub in_decibels: bool,
+    /// The distribution named after the tolerance (`uniform`, `normal`,
+    /// `truncated`), when written.
+    pub distribution: Option<SpreadShape>,
+}
+
+/// How a toleranced value spreads in production, as written after its
+/// tolerance.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SpreadShape {
+    /// Anywhere within the tolerance, evenly.
+    Uniform,
+    /// Normal, the tolerance at k standard deviations (k from the budget).
+    Normal,
+    /// Normal, cut off at the tolerance (parts outside were screened out).
+    Truncated,
 }
 
 /// Why a text is not a valid quantity for its field.
@@ -190,22 +205,35 @@ pub fn parse_quantity(text: &str, expected: Dimension) -> Result<Quantity, Quant
     if trimmed.is_empty() {
         return Err(QuantityError::Empty { expected });
     }
-    let (value_part, tolerance) = split_tolerance(trimmed)?;
+    let (value_part, tolerance, distribution) = split_tolerance(trimmed)?;
     let mut quantity = parse_value(value_part.trim(), trimmed, expected)?;
     quantity.tolerance = tolerance;
+    quantity.distribution = distribution;
     Ok(quantity)
 }
 
 /// Split `10k ±0.1 %` into `10k` and the tolerance fraction.
-fn split_tolerance(text: &str) -> Result<(&str, Option<f64>), QuantityError> {
+fn split_tolerance(text: &str) -> Result<(&str, Option<f64>, Option<SpreadShape>), QuantityError> {
     let marker = ["±", "+/-", "+-"]
         .iter()
         .filter_map(|m| text.find(m).map(|at| (at, m.len())))
         .min_by_key(|(at, _)| *at);
     let Some((at, len)) = marker else {
-        return Ok((text, None));
+        return Ok((text, None, None));
     };
-    let tolerance_text = text[at + len..].trim();
+    let mut tolerance_text = text[at + len..].trim();
+    let mut shape = None;
+    for (word, named) in [
+        ("uniform", SpreadShape::Uniform),
+        ("normal", SpreadShape::Normal),
+        ("truncated", SpreadShape::Truncated),
+    ] {
+        if let Some(rest) = tolerance_text.strip_suffix(word) {
+            tolerance_text = rest.trim();
+            shape = Some(named);
+            break;
+        }
+    }
     let bad = |reason: &str| QuantityError::BadTolerance {
         text: text.to_string(),
         reason: reason.to_string(),
@@ -223,7 +251,7 @@ fn split_tolerance(text: &str) -> Result<(&str, Option<f64>), QuantityError> {
             "a tolerance of 100 % or more is not physical; tolerances are below 100 %",
         ));
     }
-    Ok((&text[..at], Some(parsed.value)))
+    Ok((&text[..at], Some(parsed.value), shape))
 }
 
 /// Parse a number with optional prefix, unit and amplitude form.
@@ -235,6 +263,7 @@ fn parse_value(text: &str, whole: &str, expected: Dimension) -> Result<Quantity,
             form: None,
             tolerance: None,
             in_decibels: false,
+            distribution: None,
         });
     }
     let lowered = text
@@ -302,6 +331,7 @@ fn parse_value(text: &str, whole: &str, expected: Dimension) -> Result<Quantity,
         form,
         tolerance: None,
         in_decibels,
+        distribution: None,
     })
 }
 
@@ -568,6 +598,17 @@ mod tests {
             assert_relative_eq!(q.value, 10e3);
             assert_relative_eq!(q.tolerance.unwrap(), 1e-3, max_relative = 1e-12);
         }
+    }
+
+    #[test]
+    fn tolerance_may_name_its_spread() {
+        let q = parse_quantity("10k ±0.1 % uniform", Dimension::Resistance).unwrap();
+        assert_eq!(q.distribution, Some(SpreadShape::Uniform));
+        assert!((q.tolerance.unwrap() - 1e-3).abs() < 1e-15);
+        let q = parse_quantity("4.7 nF ±5 % normal", Dimension::Capacitance).unwrap();
+        assert_eq!(q.distribution, Some(SpreadShape::Normal));
+        let q = parse_quantity("10k ±1 %", Dimension::Resistance).unwrap();
+        assert_eq!(q.distribution, None);
     }
 
     #[test]

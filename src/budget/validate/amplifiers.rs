@@ -42,10 +42,9 @@ impl Validator<'_> {
                 stage,
             )
         };
-        let drift = self.drift(raw.tcr.as_ref(), raw.network.as_ref(), path, stage);
+        let set = self.resistor_set(raw.tcr.as_ref(), raw.network.as_ref(), path, stage);
         let drifting = |this: &mut Self, scalar: &Scalar, field: &str, name: &str| {
-            let base = resistor(this, scalar, field, name)?;
-            Some(this.drifting(base, drift, stage))
+            this.set_resistor(scalar, &format!("{path}.{field}"), name, stage, set)
         };
         let r1 = drifting(self, &raw.r1, "r1", "R1");
         let r2 = drifting(self, &raw.r2, "r2", "R2");
@@ -79,16 +78,9 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<StageKind> {
         let problems_before = self.problems.len();
-        let drift = self.drift(raw.tcr.as_ref(), None, path, stage);
+        let set = self.resistor_set(raw.tcr.as_ref(), None, path, stage);
         let resistor = |this: &mut Self, scalar: &Scalar, field: &str, name: &str| {
-            let base = this.part(
-                scalar,
-                &format!("{path}.{field}"),
-                Dimension::Resistance,
-                name.into(),
-                stage,
-            )?;
-            Some(this.drifting(base, drift, stage))
+            this.set_resistor(scalar, &format!("{path}.{field}"), name, stage, set)
         };
         let rg = resistor(self, &raw.rg, "rg", "RG");
         let rf1 = resistor(self, &raw.rf1, "rf1", "RF1");
@@ -475,6 +467,7 @@ impl Validator<'_> {
                 magnitude: 10f64.powf(-cmrr_db / 20.0),
             },
             presentation: Presentation::ReciprocalCmrr,
+            shape: None,
         })
     }
 

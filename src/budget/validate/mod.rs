@@ -176,6 +176,7 @@ impl Validator<'_> {
                     tolerance,
                 }),
             presentation: Presentation::Value(dimension),
+            shape: None,
         })
     }
 

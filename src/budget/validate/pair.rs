@@ -239,6 +239,7 @@ impl Validator<'_> {
                 nominal: kelvin,
                 variation: Variation::Fixed,
                 presentation: Presentation::Value(Dimension::Temperature),
+                shape: None,
             })
         };
         match (own, self.temperature) {
@@ -264,6 +265,7 @@ impl Validator<'_> {
                     nominal: 1.0 / range.reference_k,
                     variation: Variation::Fixed,
                     presentation: Presentation::Value(Dimension::TemperatureCoefficient),
+                    shape: None,
                 });
                 Some(self.parameters.add_derived(
                     Parameter {
@@ -273,8 +275,10 @@ impl Validator<'_> {
                         nominal: range.reference_k,
                         variation: Variation::Derived,
                         presentation: Presentation::Value(Dimension::Temperature),
+                        shape: None,
                     },
                     base,
+                    Vec::new(),
                     vec![per_kelvin],
                 ))
             }
@@ -355,6 +359,7 @@ impl Validator<'_> {
             nominal: 0.0,
             variation: Variation::SignedBound { magnitude },
             presentation: Presentation::Value(dimension),
+            shape: None,
         })
     }
 

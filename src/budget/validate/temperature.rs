@@ -5,6 +5,21 @@ use super::{Range, Validator};
 use crate::budget::raw::{RawNetwork, RawTemperature, Scalar};
 use crate::model::{ParamId, Parameter, Presentation, TemperatureRange, Variation};
 use crate::quantity::Dimension;
+use crate::quantity::SpreadShape;
+
+/// How a stage's resistors are made: separate parts, or one matched
+/// network whose resistors share an absolute error and hold their ratios
+/// to a tighter tolerance; and how they drift with temperature.
+#[derive(Debug, Clone, Copy, Default)]
+pub(super) struct ResistorSet {
+    /// The network's shared relative error (cancels in ratios).
+    shared_error: Option<ParamId>,
+    /// Each network resistor's own error bound, half the ratio tolerance,
+    /// and its spread.
+    own_error: Option<(f64, Option<SpreadShape>)>,
+    /// Temperature drift.
+    drift: Option<Drift>,
+}
 
 /// How a stage's resistors drift with temperature.
 #[derive(Debug, Clone, Copy)]
@@ -77,109 +92,257 @@ impl Validator<'_> {
         })
     }
 
-    /// A stage's drift setting from its `tcr` or `network` fields.
-    pub(super) fn drift(
+    /// A stage's resistor set from its `tcr` (separate parts) or `network`
+    /// (one matched network) fields.
+    pub(super) fn resistor_set(
         &mut self,
         tcr: Option<&Scalar>,
         network: Option<&RawNetwork>,
         path: &str,
         stage: usize,
-    ) -> Option<Drift> {
-        if (tcr.is_some() || network.is_some()) && self.temperature.is_none() {
-            let field = if tcr.is_some() { "tcr" } else { "network" };
+    ) -> ResistorSet {
+        let mut set = ResistorSet::default();
+        let drifts =
+            tcr.is_some() || network.is_some_and(|n| n.tcr.is_some() || n.tracking.is_some());
+        if drifts && self.temperature.is_none() {
+            let field = if tcr.is_some() {
+                "tcr".to_string()
+            } else {
+                "network.tcr".to_string()
+            };
             self.problem(
                 &format!("{path}.{field}"),
                 "temperature coefficients are given, but the budget has no temperature range to apply them over",
                 "add `temperature: {reference: 25 degC, range: [0 degC, 70 degC]}` at the top level",
             );
-            return None;
+            return set;
         }
         match (tcr, network) {
             (Some(_), Some(_)) => {
-                self.problem(path, "both `tcr` (separate parts) and `network` (one matched network) are given", "keep `tcr` for separate resistors, or `network: {tcr: …, tracking: …}` for a matched network");
-                None
+                self.problem(path, "both `tcr` (separate parts) and `network` (one matched network) are given", "keep `tcr` for separate resistors, or give the network's `tcr` and `tracking` inside `network`");
             }
             (Some(tcr), None) => {
-                let q = self.quantity(
+                if let Some(q) = self.quantity(
                     tcr,
                     &format!("{path}.tcr"),
                     Dimension::TemperatureCoefficient,
                     Range::Positive,
                     false,
-                )?;
-                Some(Drift::Separate { tcr: q.value })
+                ) {
+                    set.drift = Some(Drift::Separate { tcr: q.value });
+                }
             }
-            (None, Some(network)) => {
+            (None, Some(network)) => set = self.network(network, &format!("{path}.network"), stage),
+            (None, None) => {}
+        }
+        set
+    }
+
+    fn network(&mut self, raw: &RawNetwork, path: &str, stage: usize) -> ResistorSet {
+        let mut set = ResistorSet::default();
+        if raw.tolerance.is_none() && raw.ratio_tolerance.is_none() && raw.tcr.is_none() {
+            self.problem(
+                path,
+                "the network states nothing",
+                "give its `tolerance`, `ratio_tolerance`, and/or `tcr` with `tracking`",
+            );
+            return set;
+        }
+        if let Some((tolerance, shape)) =
+            self.network_tolerance(raw.tolerance.as_ref(), &format!("{path}.tolerance"))
+        {
+            set.shared_error = Some(self.bound(
+                "network error (shared)",
+                tolerance,
+                &format!("{path}.tolerance"),
+                stage,
+                Dimension::Fraction,
+                shape,
+            ));
+        }
+        if let Some((ratio, shape)) = self.network_tolerance(
+            raw.ratio_tolerance.as_ref(),
+            &format!("{path}.ratio_tolerance"),
+        ) {
+            set.own_error = Some((ratio / 2.0, shape));
+        }
+        match (&raw.tcr, &raw.tracking) {
+            (Some(tcr), Some(tracking)) => {
                 let tcr = self.quantity(
-                    &network.tcr,
-                    &format!("{path}.network.tcr"),
+                    tcr,
+                    &format!("{path}.tcr"),
                     Dimension::TemperatureCoefficient,
                     Range::Positive,
                     false,
                 );
                 let tracking = self.quantity(
-                    &network.tracking,
-                    &format!("{path}.network.tracking"),
+                    tracking,
+                    &format!("{path}.tracking"),
                     Dimension::TemperatureCoefficient,
                     Range::Positive,
                     false,
                 );
-                let shared = self.coefficient(
-                    "network TC (shared)",
-                    tcr?.value,
-                    &format!("{path}.network.tcr"),
-                    stage,
-                );
-                Some(Drift::Network {
-                    shared,
-                    tracking: tracking?.value,
-                })
+                if let (Some(tcr), Some(tracking)) = (tcr, tracking) {
+                    let shared = self.bound(
+                        "network TC (shared)",
+                        tcr.value,
+                        &format!("{path}.tcr"),
+                        stage,
+                        Dimension::TemperatureCoefficient,
+                        None,
+                    );
+                    set.drift = Some(Drift::Network {
+                        shared,
+                        tracking: tracking.value,
+                    });
+                }
             }
-            (None, None) => None,
+            (None, None) => {}
+            _ => {
+                self.problem(
+                    path,
+                    "a network's `tcr` and `tracking` go together",
+                    "give both (e.g. `tcr: 25 ppm/K, tracking: 2 ppm/K`), or neither",
+                );
+            }
         }
+        set
     }
 
-    /// A temperature coefficient of unknown sign, bounded by `magnitude`.
-    fn coefficient(&mut self, name: &str, magnitude: f64, path: &str, stage: usize) -> ParamId {
+    /// A network tolerance, written like `0.1 %` or `0.01 % normal`.
+    fn network_tolerance(
+        &mut self,
+        text: Option<&Scalar>,
+        path: &str,
+    ) -> Option<(f64, Option<SpreadShape>)> {
+        let text = text?;
+        let words: Vec<&str> = text.0.split_whitespace().collect();
+        let shape = match words.last().copied() {
+            Some("uniform") => Some(SpreadShape::Uniform),
+            Some("normal") => Some(SpreadShape::Normal),
+            Some("truncated") => Some(SpreadShape::Truncated),
+            _ => None,
+        };
+        let value_text = if shape.is_some() {
+            words[..words.len() - 1].join(" ")
+        } else {
+            text.0.clone()
+        };
+        let q = self.quantity(
+            &Scalar(value_text),
+            path,
+            Dimension::Fraction,
+            Range::Positive,
+            false,
+        )?;
+        if q.value >= 1.0 {
+            self.problem(
+                path,
+                "a tolerance of 100 % or more is not physical",
+                "give the network's tolerance below 100 %, e.g. `0.1 %`",
+            );
+            return None;
+        }
+        Some((q.value, shape))
+    }
+
+    /// A quantity of unknown sign around zero, bounded by `magnitude`.
+    fn bound(
+        &mut self,
+        name: &str,
+        magnitude: f64,
+        path: &str,
+        stage: usize,
+        dimension: Dimension,
+        shape: Option<SpreadShape>,
+    ) -> ParamId {
         self.parameters.add(Parameter {
             name: name.into(),
             stage,
             field: path.into(),
             nominal: 0.0,
             variation: Variation::SignedBound { magnitude },
-            presentation: Presentation::Value(Dimension::TemperatureCoefficient),
+            presentation: Presentation::Value(dimension),
+            shape,
         })
     }
 
-    /// The resistor `base` made to follow temperature under `drift`: returns
-    /// the derived parameter the stage should use (or `base` unchanged).
-    pub(super) fn drifting(
+    /// A resistor of a stage, made as `set` says: returns the parameter the
+    /// stage uses.
+    pub(super) fn set_resistor(
         &mut self,
-        base: ParamId,
-        drift: Option<Drift>,
+        scalar: &Scalar,
+        path: &str,
+        name: &str,
         stage: usize,
-    ) -> ParamId {
-        let Some(drift) = drift else { return base };
-        let parameter = self.parameters.get(base).clone();
-        let (own_bound, mut coefficients) = match drift {
-            Drift::Separate { tcr } => (tcr, Vec::new()),
-            Drift::Network { shared, tracking } => (tracking / 2.0, vec![shared]),
+        set: ResistorSet,
+    ) -> Option<ParamId> {
+        let in_network = set.shared_error.is_some() || set.own_error.is_some();
+        let base = if in_network {
+            let q = self.quantity(scalar, path, Dimension::Resistance, Range::Positive, true)?;
+            if q.tolerance.is_some() {
+                self.problem(path, format!("`{}` carries its own tolerance, but it belongs to a network whose tolerances set its spread", scalar.0.trim()), "write the nominal value alone (e.g. `10k`) and state the spread under `network`");
+                return None;
+            }
+            self.add_value(
+                name.into(),
+                stage,
+                path,
+                q.value,
+                None,
+                Dimension::Resistance,
+            )
+        } else {
+            self.part(scalar, path, Dimension::Resistance, name.into(), stage)?
         };
-        let own = self.coefficient(
-            &format!("{} TC", parameter.name),
-            own_bound,
-            &parameter.field,
-            stage,
-        );
-        coefficients.push(own);
-        self.parameters.add_derived(
+        if !in_network && set.drift.is_none() {
+            return Some(base);
+        }
+        let mut factors = Vec::new();
+        factors.extend(set.shared_error);
+        if let Some((bound, shape)) = set.own_error {
+            factors.push(self.bound(
+                &format!("{name} ratio error"),
+                bound,
+                path,
+                stage,
+                Dimension::Fraction,
+                shape,
+            ));
+        }
+        let mut coefficients = Vec::new();
+        match set.drift {
+            Some(Drift::Separate { tcr }) => coefficients.push(self.bound(
+                &format!("{name} TC"),
+                tcr,
+                path,
+                stage,
+                Dimension::TemperatureCoefficient,
+                None,
+            )),
+            Some(Drift::Network { shared, tracking }) => {
+                coefficients.push(shared);
+                coefficients.push(self.bound(
+                    &format!("{name} TC"),
+                    tracking / 2.0,
+                    path,
+                    stage,
+                    Dimension::TemperatureCoefficient,
+                    None,
+                ));
+            }
+            None => {}
+        }
+        let parameter = self.parameters.get(base).clone();
+        Some(self.parameters.add_derived(
             Parameter {
-                name: format!("{} at temperature", parameter.name),
+                name: format!("{name} as built"),
                 variation: Variation::Derived,
                 ..parameter
             },
             base,
+            factors,
             coefficients,
-        )
+        ))
     }
 }
