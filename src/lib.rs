@@ -4,6 +4,7 @@
 pub mod budget;
 pub mod engine;
 pub mod model;
+pub mod montecarlo;
 pub mod plot;
 pub mod quantity;
 pub mod report;

@@ -6,13 +6,17 @@
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use cmrr_budget::budget::load_budget;
 use cmrr_budget::model::Budget;
-use cmrr_budget::plot::{plot_overlay, OverlaySeries};
+use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions, MAX_TRIALS};
+use cmrr_budget::plot::{plot_histogram, plot_overlay, OverlaySeries};
 use cmrr_budget::quantity::{format_si, parse_quantity, Dimension};
 use cmrr_budget::report::compare::{
     build_compare_report, render_compare_csv, render_compare_table,
 };
 use cmrr_budget::report::sweep::{
     build_sweep_report, render_sweep_chart, render_sweep_csv, render_sweep_svg, render_sweep_table,
+};
+use cmrr_budget::report::yield_report::{
+    build_yield_report, histogram_points, render_yield_csv, render_yield_table,
 };
 use cmrr_budget::report::{
     build_report, csv::render_csv, json::render_json, table::render_table, Db, Report,
@@ -21,7 +25,7 @@ use cmrr_budget::sweep::{
     run_sweep, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE, DEFAULT_TO_HZ,
 };
 use serde::Serialize;
-use std::io::{self, Write};
+use std::io::{self, IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
@@ -64,6 +68,36 @@ enum Command {
         /// Print a compact text chart instead of the table.
         #[arg(long)]
         chart: bool,
+    },
+    /// Monte Carlo over the parts' spreads with the exact engine: CMRR and
+    /// error percentiles, yield against the requirement with its confidence
+    /// interval, and the worst sign corner.
+    Yield {
+        /// The budget file (YAML).
+        file: PathBuf,
+        /// How many trials (1 to 100000000).
+        #[arg(long, default_value_t = 10_000)]
+        trials: u64,
+        /// The master seed: the same seed gives the same numbers on any
+        /// number of threads.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// Where the operating temperature sits (default: drawn over the
+        /// budget's range if it has one, else the reference).
+        #[arg(long, value_enum)]
+        temperature: Option<TemperatureArg>,
+        /// Threads to use (default: every core).
+        #[arg(long)]
+        threads: Option<usize>,
+        #[command(flatten)]
+        output: OutputArgs,
+        /// Also draw the CMRR histogram as an SVG plot in this file.
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
+        /// The frequency of the histogram (default: the first required
+        /// minimum, else the first interference source).
+        #[arg(long, value_name = "FREQ")]
+        plot_at: Option<String>,
     },
     /// Put several designs side by side: each interference source's CMRR,
     /// error, margin and dominant contributor per design.
@@ -112,6 +146,18 @@ struct RangeArgs {
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum TemperatureArg {
+    /// At the reference temperature.
+    Reference,
+    /// Drawn uniformly over the range, per trial.
+    Drawn,
+    /// At the cold end.
+    Cold,
+    /// At the hot end.
+    Hot,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 enum Format {
     /// Readable tables for a terminal.
     Table,
@@ -154,7 +200,155 @@ fn run(cli: Cli) -> Result<u8, String> {
             plot,
             range,
         } => compare(&files, &output, plot.as_deref(), &range),
+        Command::Yield {
+            file,
+            trials,
+            seed,
+            temperature,
+            threads,
+            output,
+            plot,
+            plot_at,
+        } => production_yield(
+            &file,
+            trials,
+            seed,
+            temperature,
+            threads,
+            &output,
+            plot.as_deref(),
+            plot_at.as_deref(),
+        ),
     }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn production_yield(
+    file: &Path,
+    trials: u64,
+    seed: u64,
+    temperature: Option<TemperatureArg>,
+    threads: Option<usize>,
+    output: &OutputArgs,
+    plot: Option<&Path>,
+    plot_at: Option<&str>,
+) -> Result<u8, String> {
+    if trials == 0 || trials > MAX_TRIALS {
+        return Err(format!(
+            "--trials {trials}: a run takes 1 to {MAX_TRIALS} trials; run several seeds for more"
+        ));
+    }
+    output.check_paths(&[file], plot)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let mode = match temperature {
+        Some(TemperatureArg::Reference) => TemperatureMode::Reference,
+        Some(TemperatureArg::Drawn) => TemperatureMode::Drawn,
+        Some(TemperatureArg::Cold) => TemperatureMode::Cold,
+        Some(TemperatureArg::Hot) => TemperatureMode::Hot,
+        None if budget.temperature.is_some() => TemperatureMode::Drawn,
+        None => TemperatureMode::Reference,
+    };
+    let plot_frequency = plot_at
+        .map(|t| {
+            parse_quantity(t, Dimension::Frequency)
+                .map(|q| q.value)
+                .map_err(|e| format!("option --plot-at: {e}"))
+        })
+        .transpose()?;
+    let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+    {
+        let stop = stop.clone();
+        // A second Ctrl-C after the first ends the process at once.
+        let _ = ctrlc::set_handler(move || {
+            if stop.swap(true, std::sync::atomic::Ordering::Relaxed) {
+                std::process::exit(130);
+            }
+        });
+    }
+    let bar = if std::io::stderr().is_terminal() {
+        let bar = indicatif::ProgressBar::new(trials);
+        bar.set_style(
+            indicatif::ProgressStyle::with_template(
+                "{elapsed_precise} [{bar:40}] {pos}/{len} trials, {eta} left",
+            )
+            .expect("the template is valid")
+            .progress_chars("=> "),
+        );
+        Some(bar)
+    } else {
+        None
+    };
+    let progress = |done: u64| {
+        if let Some(bar) = &bar {
+            bar.set_position(done);
+        }
+    };
+    let options = YieldOptions {
+        trials,
+        seed,
+        temperature: mode,
+    };
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads.unwrap_or(0))
+        .build()
+        .map_err(|e| format!("cannot start the worker threads: {e}"))?;
+    let result = pool.install(|| build_yield_report(&budget, options, &progress, &stop));
+    if let Some(bar) = &bar {
+        bar.finish_and_clear();
+    }
+    let (report, run) = result.map_err(|e| format!("{}: {e}", file.display()))?;
+    if report.interrupted {
+        eprintln!(
+            "interrupted: {} of {} trials ran; the figures below are from those",
+            report.trials_run, report.trials_requested
+        );
+    }
+    if let Some(path) = plot {
+        let index = match plot_frequency {
+            Some(f) => run
+                .frequencies
+                .iter()
+                .position(|g| (g - f).abs() <= 1e-9 * f.max(1.0))
+                .ok_or_else(|| {
+                    format!(
+                        "option --plot-at: {} is not one of the budget's analysis frequencies",
+                        format_si(f, "Hz")
+                    )
+                })?,
+            None => report
+                .frequencies
+                .iter()
+                .position(|f| f.required_db.is_some())
+                .unwrap_or(0),
+        };
+        let at = &report.frequencies[index];
+        let title = format!(
+            "{}: CMRR at {} over {} units",
+            report.budget,
+            format_si(at.frequency_hz, "Hz"),
+            report.trials_run
+        );
+        let percentiles = [
+            ("0.1 %", at.cmrr_db.p0_1.0),
+            ("1 %", at.cmrr_db.p1.0),
+            ("median", at.cmrr_db.p50.0),
+        ];
+        let svg = plot_histogram(
+            &title,
+            &histogram_points(&run, index),
+            at.required_db.map(|d| d.0),
+            &percentiles,
+        )
+        .map_err(|e| e.to_string())?;
+        write_file(path, &svg)?;
+    }
+    let text = match output.format {
+        Format::Table => render_yield_table(&report),
+        Format::Json => json(&report),
+        Format::Csv => render_yield_csv(&report),
+    };
+    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    Ok(MET)
 }
 
 fn check(file: &Path) -> Result<u8, String> {

@@ -31,6 +31,27 @@ pub struct RawBudget {
     pub measurand: Option<RawMeasurand>,
     #[serde(default)]
     pub sweep: Option<RawSweep>,
+    #[serde(default)]
+    pub production: Option<RawProduction>,
+}
+
+/// The default spread of toleranced values.
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawProduction {
+    #[serde(default)]
+    pub distribution: Option<RawShape>,
+    #[serde(default)]
+    pub sigmas: Option<f64>,
+}
+
+/// A spread shape.
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum RawShape {
+    Uniform,
+    Normal,
+    Truncated,
 }
 
 /// The default range of `cmrr sweep` for this budget.

@@ -1,7 +1,7 @@
 //! The validated budget model.
 
 use super::Parameters;
-use crate::quantity::{format_si, AmplitudeForm};
+use crate::quantity::{format_si, AmplitudeForm, SpreadShape};
 use crate::stage::Stage;
 
 /// A validated budget, ready for the engine.
@@ -29,6 +29,30 @@ pub struct Budget {
     pub measurand: Option<Measurand>,
     /// The file's preferred sweep range (each part optional).
     pub sweep: SweepRange,
+    /// How toleranced values spread in production, by default.
+    pub production: Production,
+}
+
+/// The default spread of toleranced values in production.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Production {
+    /// The shape of a toleranced value that names none.
+    pub shape: SpreadShape,
+    /// For normal shapes: the tolerance sits at this many standard
+    /// deviations.
+    pub sigmas: f64,
+}
+
+impl Default for Production {
+    /// Truncated normal with the tolerance at 3 σ: parts are normal around
+    /// nominal and those outside their tolerance were screened out (common
+    /// practice, no source).
+    fn default() -> Production {
+        Production {
+            shape: SpreadShape::Truncated,
+            sigmas: 3.0,
+        }
+    }
 }
 
 /// A sweep range as the budget file states it; parts left out fall back to

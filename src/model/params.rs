@@ -153,6 +153,12 @@ impl Parameters {
         ParamId(self.list.len() - 1)
     }
 
+    /// Name how a parameter spreads in production (from its tolerance's
+    /// text).
+    pub fn set_shape(&mut self, id: ParamId, shape: Option<SpreadShape>) {
+        self.list[id.0].shape = shape;
+    }
+
     /// The parameter with this id.
     pub fn get(&self, id: ParamId) -> &Parameter {
         &self.list[id.0]

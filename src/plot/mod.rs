@@ -11,5 +11,5 @@ mod svg;
 pub mod terminal;
 
 pub use style::MAX_CONTRIBUTOR_CURVES;
-pub use svg::{plot_overlay, plot_sweep, OverlaySeries, PlotError};
+pub use svg::{plot_histogram, plot_overlay, plot_sweep, OverlaySeries, PlotError};
 pub use terminal::text_chart;

@@ -301,6 +301,105 @@ fn render(figure: &Figure) -> Result<String, PlotError> {
     Ok(svg)
 }
 
+/// A histogram of CMRR over the trials at one frequency: bars of the count
+/// per dB range, the required minimum as a dotted vertical, the percentiles
+/// as short ticks.
+pub fn plot_histogram(
+    title: &str,
+    bars: &[(f64, u64)],
+    required_db: Option<f64>,
+    percentiles: &[(&str, f64)],
+) -> Result<String, PlotError> {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
+        root.fill(&PAPER).map_err(failed)?;
+        let width = if bars.len() > 1 {
+            bars[1].0 - bars[0].0
+        } else {
+            1.0
+        };
+        let low = bars
+            .first()
+            .map_or(0.0, |b| b.0)
+            .min(required_db.unwrap_or(f64::INFINITY) - width);
+        let high = bars
+            .last()
+            .map_or(1.0, |b| b.0 + width)
+            .max(required_db.unwrap_or(f64::NEG_INFINITY) + width);
+        let tallest = bars.iter().map(|b| b.1).max().unwrap_or(1).max(1) as f64;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, (FONT, TITLE_SIZE).into_font().color(&INK))
+            .margin(16)
+            .x_label_area_size(46)
+            .y_label_area_size(72)
+            .build_cartesian_2d(low..high, 0.0..tallest * 1.12)
+            .map_err(failed)?;
+        chart
+            .configure_mesh()
+            .light_line_style(GRID.mix(0.5))
+            .bold_line_style(GRID)
+            .axis_style(INK)
+            .x_desc("CMRR (dB)")
+            .y_desc("units (count)")
+            .x_label_formatter(&|db| format!("{db:.1} dB"))
+            .y_label_formatter(&|n| format!("{n:.0}"))
+            .label_style((FONT, LABEL_SIZE).into_font().color(&INK))
+            .axis_desc_style((FONT, LABEL_SIZE).into_font().color(&INK))
+            .draw()
+            .map_err(failed)?;
+        chart
+            .draw_series(bars.iter().map(|&(edge, count)| {
+                Rectangle::new(
+                    [(edge, 0.0), (edge + width * 0.92, count as f64)],
+                    SERIES[3].mix(0.85).filled(),
+                )
+            }))
+            .map_err(failed)?
+            .label("units per bin")
+            .legend(|(x, y)| Rectangle::new([(x, y - 5), (x + 14, y + 5)], SERIES[3].filled()));
+        if let Some(required) = required_db {
+            chart
+                .draw_series(DashedLineSeries::new(
+                    vec![(required, 0.0), (required, tallest * 1.12)],
+                    4,
+                    4,
+                    TOTALS[0].stroke_width(2),
+                ))
+                .map_err(failed)?
+                .label(format!("required minimum {required:.1} dB"))
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 22, y)], TOTALS[0].stroke_width(2))
+                });
+        }
+        for (name, db) in percentiles.iter().filter(|(_, db)| db.is_finite()) {
+            chart
+                .draw_series(std::iter::once(PathElement::new(
+                    vec![(*db, tallest * 1.02), (*db, tallest * 1.08)],
+                    INK.stroke_width(2),
+                )))
+                .map_err(failed)?;
+            chart
+                .draw_series(std::iter::once(Text::new(
+                    name.to_string(),
+                    (*db, tallest * 1.10),
+                    (FONT, LABEL_SIZE - 3).into_font().color(&INK),
+                )))
+                .map_err(failed)?;
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(PAPER.mix(0.9))
+            .border_style(GRID)
+            .label_font((FONT, LABEL_SIZE - 2).into_font().color(&INK))
+            .draw()
+            .map_err(failed)?;
+        root.present().map_err(failed)?;
+    }
+    Ok(svg)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

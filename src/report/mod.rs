@@ -11,6 +11,7 @@ mod facts;
 pub mod json;
 pub mod sweep;
 pub mod table;
+pub mod yield_report;
 
 pub use build::build_report;
 pub use cautions::cautions as cautions_for;

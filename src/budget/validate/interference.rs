@@ -2,12 +2,14 @@
 
 use super::{Range, Validator};
 use crate::budget::raw::{
-    RawInterference, RawJudgement, RawMeasurand, RawRequirement, RawSweep, Scalar,
+    RawInterference, RawJudgement, RawMeasurand, RawProduction, RawRequirement, RawShape, RawSweep,
+    Scalar,
 };
 use crate::model::{
-    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Requirement, SweepRange,
+    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Production,
+    Requirement, SweepRange,
 };
-use crate::quantity::{parse_quantity, Dimension};
+use crate::quantity::{parse_quantity, Dimension, SpreadShape};
 
 impl Validator<'_> {
     pub(super) fn amplitude(&mut self, scalar: &Scalar, path: &str) -> Option<Amplitude> {
@@ -290,6 +292,31 @@ impl Validator<'_> {
             from_hz,
             to_hz,
             per_decade: raw.points_per_decade,
+        }
+    }
+
+    pub(super) fn production(&mut self, raw: &RawProduction) -> Production {
+        let default = Production::default();
+        let sigmas = match raw.sigmas {
+            Some(k) if !(k.is_finite() && k > 0.0) => {
+                self.problem(
+                    "production.sigmas",
+                    format!("{k} is not a number of standard deviations"),
+                    "give a positive number, e.g. `sigmas: 3`",
+                );
+                default.sigmas
+            }
+            Some(k) => k,
+            None => default.sigmas,
+        };
+        Production {
+            shape: match raw.distribution {
+                Some(RawShape::Uniform) => SpreadShape::Uniform,
+                Some(RawShape::Normal) => SpreadShape::Normal,
+                Some(RawShape::Truncated) => SpreadShape::Truncated,
+                None => default.shape,
+            },
+            sigmas,
         }
     }
 }

@@ -132,14 +132,16 @@ impl Validator<'_> {
         stage: usize,
     ) -> Option<ParamId> {
         let quantity = self.quantity(scalar, path, dimension, Range::Positive, true)?;
-        Some(self.add_value(
+        let id = self.add_value(
             name,
             stage,
             path,
             quantity.value,
             quantity.tolerance,
             dimension,
-        ))
+        );
+        self.parameters.set_shape(id, quantity.distribution);
+        Some(id)
     }
 
     /// A fixed (untoleranced) parameter.
@@ -283,6 +285,11 @@ impl Validator<'_> {
                 .sweep
                 .as_ref()
                 .map(|s| self.sweep_range(s))
+                .unwrap_or_default(),
+            production: raw
+                .production
+                .as_ref()
+                .map(|p| self.production(p))
                 .unwrap_or_default(),
         }
     }

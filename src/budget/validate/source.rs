@@ -229,14 +229,16 @@ impl Validator<'_> {
                 true,
             );
             if let (Some(per_length), Some(length)) = (per_length, &length) {
-                ids[leg] = Some(self.add_value(
+                let id = self.add_value(
                     format!("cable C ({})", if leg == 0 { "p" } else { "n" }),
                     stage,
                     &leg_path,
                     per_length.value * length.value,
                     per_length.tolerance,
                     Dimension::Capacitance,
-                ));
+                );
+                self.parameters.set_shape(id, per_length.distribution);
+                ids[leg] = Some(id);
             } else if matches!(raw.capacitance, PerLeg::Both(_)) {
                 break;
             }
