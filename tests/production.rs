@@ -1,0 +1,287 @@
+//! Production spread: Monte Carlo percentiles against a distribution known
+//! in closed form, determinism across thread counts, the worst corner
+//! against the linear bound, and matched networks against separate parts.
+
+use approx::assert_relative_eq;
+use assert_cmd::Command;
+use cmrr_budget::budget::parse_budget;
+use cmrr_budget::engine::analyse_point;
+use cmrr_budget::model::Budget;
+use cmrr_budget::montecarlo::{run_yield, worst_corner, TemperatureMode, YieldOptions};
+use std::path::PathBuf;
+use std::sync::atomic::{AtomicBool, Ordering};
+
+fn budget(chain: &str) -> Budget {
+    let text = format!("name: spread\nchain:\n{chain}\ninterference:\n  - {{name: hum, amplitude: 1 V rms, frequency: 50 Hz}}\n");
+    parse_budget(&text, "spread.yaml").unwrap_or_else(|e| panic!("{e}"))
+}
+
+fn options(trials: u64, seed: u64) -> YieldOptions {
+    YieldOptions {
+        trials,
+        seed,
+        temperature: TemperatureMode::Reference,
+    }
+}
+
+fn run(b: &Budget, trials: u64, seed: u64) -> cmrr_budget::montecarlo::YieldRun {
+    run_yield(
+        b,
+        &[0.0],
+        &[],
+        options(trials, seed),
+        &|_| {},
+        &AtomicBool::new(false),
+    )
+    .unwrap()
+}
+
+/// One resistor uniform within ±t in an ideal unity difference amplifier:
+/// with R4 = R(1 + δ), the exact common-mode gain (R1 R4 − R2 R3)/(R1 (R3 +
+/// R4)) (Pallas-Areny and Webster 1991) gives ε(δ), monotone in δ, so
+/// P(CMRR < c) = 1 − (δ₊(c) − δ₋(c))/(2t) where ε(δ±) = ±10^(−c/20). The
+/// Monte Carlo percentiles must match this to the histogram's 0.05 dB plus
+/// sampling spread.
+#[test]
+fn percentiles_follow_the_closed_form() {
+    let t = 0.01;
+    let b = budget("  - difference_amp: {r1: 10k, r2: 10k, r3: 10k, r4: 10k ±1 % uniform}");
+    let epsilon = |d: f64| {
+        let acm = d / (2.0 + d);
+        let add = (1.0 + 2.0 * (1.0 + d) / (2.0 + d)) / 2.0;
+        acm / add
+    };
+    // δ with ε(δ) = target, by bisection on the monotone map.
+    let solve = |target: f64| {
+        let (mut lo, mut hi) = (-0.5, 0.5);
+        for _ in 0..200 {
+            let mid = (lo + hi) / 2.0;
+            if epsilon(mid) < target {
+                lo = mid
+            } else {
+                hi = mid
+            }
+        }
+        lo
+    };
+    let below = |c: f64| {
+        let e = 10f64.powf(-c / 20.0);
+        let width = solve(e).min(t) - solve(-e).max(-t);
+        1.0 - width / (2.0 * t)
+    };
+    let quantile = |p: f64| {
+        let (mut lo, mut hi) = (0.0, 200.0);
+        for _ in 0..200 {
+            let mid = (lo + hi) / 2.0;
+            if below(mid) < p {
+                lo = mid
+            } else {
+                hi = mid
+            }
+        }
+        lo
+    };
+    let result = run(&b, 200_000, 7);
+    let histogram = &result.histograms[0];
+    for p in [0.01, 0.05, 0.5] {
+        let expected = quantile(p);
+        let got = histogram.quantile(p);
+        assert!(
+            (got - expected).abs() < 0.15,
+            "p = {p}: {got} against {expected}"
+        );
+    }
+    // The worst trial cannot beat the worst corner: |δ| = t.
+    let worst = -20.0 * epsilon(-t).abs().max(epsilon(t).abs()).log10();
+    assert!(histogram.worst().unwrap().0 >= worst - 1e-9);
+}
+
+#[test]
+fn same_seed_same_numbers_on_one_and_two_threads() {
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("budgets/bridge-three-opamp.yaml");
+    let b = cmrr_budget::budget::load_budget(&path).unwrap();
+    let frequencies = [0.0, 50.0, 1e3];
+    let go = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| {
+                let mut o = options(3_000, 42);
+                o.temperature = TemperatureMode::Drawn;
+                run_yield(&b, &frequencies, &[], o, &|_| {}, &AtomicBool::new(false)).unwrap()
+            })
+    };
+    let one = go(1);
+    let two = go(2);
+    assert_eq!(one, two);
+    assert_eq!(one.trials_run, 3_000);
+    // Another seed gives other numbers.
+    let other = rayon::ThreadPoolBuilder::new()
+        .num_threads(2)
+        .build()
+        .unwrap()
+        .install(|| {
+            run_yield(
+                &b,
+                &frequencies,
+                &[],
+                options(3_000, 43),
+                &|_| {},
+                &AtomicBool::new(false),
+            )
+            .unwrap()
+        });
+    assert_ne!(one.histograms, other.histograms);
+}
+
+/// With small tolerances the conversion is linear in the deviations, so the
+/// worst sign corner solved exactly equals the first-order worst case
+/// (the sum of the contributions' magnitudes, as in #2's budget). Common
+/// practice, no source.
+#[test]
+fn worst_corner_equals_the_linear_bound_for_small_tolerances() {
+    let b = budget("  - difference_amp: {r1: 10k ±0.01 %, r2: 100k ±0.01 %, r3: 10k ±0.01 %, r4: 100k ±0.01 %, opamp: {cmrr: 110 dB}}");
+    let corner = worst_corner(&b, 0.0, 0.0).unwrap();
+    assert!(corner.exhaustive);
+    assert_eq!(corner.evaluated, 32);
+    assert_relative_eq!(corner.conversion, corner.linear_bound, max_relative = 1e-3);
+    assert_relative_eq!(
+        corner.linear_bound,
+        analyse_point(&b, 0.0).unwrap().worst_case()
+    );
+}
+
+/// A matched network's resistors share their absolute error, which cancels
+/// in the ratios, so only the ratio tolerance T converts: each resistor's
+/// own error within ±T/2 gives the (1 + G)/(4 t) worst case of four
+/// resistors with t = T/2, i.e. (1 + G)/(2T) (Pallas-Areny and Webster
+/// 1991 for the four-resistor form). Separate parts at the network's
+/// absolute tolerance get no such credit.
+#[test]
+fn matched_network_is_ratio_limited() {
+    let network = budget("  - difference_amp: {r1: 10k, r2: 100k, r3: 10k, r4: 100k, network: {tolerance: 1 %, ratio_tolerance: 0.02 %}}");
+    let separate =
+        budget("  - difference_amp: {r1: 10k ±1 %, r2: 100k ±1 %, r3: 10k ±1 %, r4: 100k ±1 %}");
+    let matched = analyse_point(&network, 0.0).unwrap();
+    assert_relative_eq!(
+        1.0 / matched.worst_case(),
+        11.0 / (2.0 * 2e-4),
+        max_relative = 1e-3
+    );
+    let shared = matched
+        .contributions
+        .iter()
+        .find(|c| network.parameters.get(c.param).name == "network error (shared)")
+        .unwrap();
+    assert!(shared.magnitude() < 1e-12);
+    let loose = analyse_point(&separate, 0.0).unwrap();
+    assert_relative_eq!(
+        1.0 / loose.worst_case(),
+        11.0 / (4.0 * 0.01),
+        max_relative = 0.02
+    );
+    // In production too: the network's worst trial stays above the bound.
+    let spread = run(&network, 20_000, 3);
+    assert!(spread.histograms[0].worst().unwrap().0 >= 20.0 * (11.0f64 / 4e-4).log10() - 0.01);
+}
+
+#[test]
+fn interruption_stops_cleanly() {
+    let b = budget("  - difference_amp: {r1: 10k ±1 %, r2: 10k ±1 %, r3: 10k ±1 %, r4: 10k ±1 %}");
+    let stop = AtomicBool::new(false);
+    let result = run_yield(
+        &b,
+        &[0.0],
+        &[],
+        options(1_000_000, 1),
+        &|done| {
+            if done >= 1_000 {
+                stop.store(true, Ordering::Relaxed);
+            }
+        },
+        &stop,
+    )
+    .unwrap();
+    assert!(result.interrupted);
+    assert!(result.trials_run < 1_000_000 && result.trials_run >= 256);
+    assert_eq!(result.histograms[0].count(), result.trials_run);
+}
+
+#[test]
+fn yield_command_formats_and_refusals() {
+    let cmrr = || Command::cargo_bin("cmrr").unwrap();
+    let root = env!("CARGO_MANIFEST_DIR");
+    let json = |threads: &str| {
+        let output = cmrr()
+            .current_dir(root)
+            .args([
+                "yield",
+                "budgets/motor-shunt.yaml",
+                "--trials",
+                "2000",
+                "--seed",
+                "9",
+                "--threads",
+                threads,
+                "--format",
+                "json",
+            ])
+            .output()
+            .unwrap();
+        assert_eq!(output.status.code(), Some(0));
+        serde_json::from_slice::<serde_json::Value>(&output.stdout).unwrap()
+    };
+    let one = json("1");
+    assert_eq!(one, json("2"));
+    assert_eq!(one["trials_run"], 2000);
+    let overall = one["overall_yield"]["fraction"].as_f64().unwrap();
+    assert!((0.0..=1.0).contains(&overall));
+    let f = &one["frequencies"][1];
+    for key in ["p0_1", "p1", "p5", "p50"] {
+        assert!(f["cmrr_db"][key].is_number(), "{key}");
+    }
+    assert_eq!(f["worst_corner"]["search"], "exhaustive");
+    let dir = tempfile::tempdir().unwrap();
+    let svg = dir.path().join("h.svg");
+    cmrr()
+        .current_dir(root)
+        .args([
+            "yield",
+            "budgets/motor-shunt.yaml",
+            "--trials",
+            "500",
+            "--plot",
+            svg.to_str().unwrap(),
+            "--format",
+            "csv",
+        ])
+        .assert()
+        .code(0)
+        .stdout(predicates::str::starts_with("frequency_hz,cmrr_p0_1_db"));
+    roxmltree::Document::parse(&std::fs::read_to_string(&svg).unwrap()).unwrap();
+    cmrr()
+        .current_dir(root)
+        .args(["yield", "budgets/motor-shunt.yaml", "--trials", "100000001"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("1 to 100000000"));
+    cmrr()
+        .current_dir(root)
+        .args(["yield", "budgets/motor-shunt.yaml", "--trials", "0"])
+        .assert()
+        .code(2);
+    cmrr()
+        .current_dir(root)
+        .args([
+            "yield",
+            "budgets/motor-shunt.yaml",
+            "--temperature",
+            "hot",
+            "--trials",
+            "10",
+        ])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("no temperature range"));
+}
