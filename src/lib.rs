@@ -2,6 +2,7 @@
 #![warn(missing_docs)]
 
 pub mod budget;
+pub mod design;
 pub mod engine;
 pub mod model;
 pub mod montecarlo;

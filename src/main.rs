@@ -5,12 +5,17 @@
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use cmrr_budget::budget::load_budget;
+use cmrr_budget::design::{Goal, Knob, KnobKind};
 use cmrr_budget::model::Budget;
 use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions, MAX_TRIALS};
 use cmrr_budget::plot::{plot_histogram, plot_overlay, OverlaySeries};
 use cmrr_budget::quantity::{format_si, parse_quantity, Dimension};
 use cmrr_budget::report::compare::{
     build_compare_report, render_compare_csv, render_compare_table,
+};
+use cmrr_budget::report::design::{
+    improve_report, render_improve_table, render_sizing_table, render_trim_table, sizing_report,
+    trim_report, TrimRow,
 };
 use cmrr_budget::report::sweep::{
     build_sweep_report, render_sweep_chart, render_sweep_csv, render_sweep_svg, render_sweep_table,
@@ -99,6 +104,55 @@ enum Command {
         #[arg(long, value_name = "FREQ")]
         plot_at: Option<String>,
     },
+    /// Find the loosest setting of one free parameter that meets the
+    /// requirement: a resistor class, a network's ratio tolerance, filter
+    /// capacitor matching, the allowed source imbalance, TCR tracking, an
+    /// in-amp's first-stage gain, or a pair's tail resistance.
+    Size {
+        /// The budget file (YAML).
+        file: PathBuf,
+        /// The parameter to size.
+        #[arg(long, value_enum)]
+        vary: VaryArg,
+        /// The stage's label (default: the first stage where it applies).
+        #[arg(long, value_name = "LABEL")]
+        stage: Option<String>,
+        /// Size for this Monte Carlo yield (e.g. `99 %`) instead of the
+        /// worst case.
+        #[arg(long = "yield", value_name = "PERCENT")]
+        yield_target: Option<String>,
+        /// Trials per setting for a yield target.
+        #[arg(long, default_value_t = 5_000)]
+        trials: u64,
+        /// The master seed for a yield target.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        #[command(flatten)]
+        output: OutputArgs,
+    },
+    /// What must change: each contributor against an equal share of the
+    /// allowed error, and what halving each tolerance buys.
+    Improve {
+        /// The budget file (YAML).
+        file: PathBuf,
+        #[command(flatten)]
+        output: OutputArgs,
+    },
+    /// The effect of trimming a difference stage at DC: CMRR before and
+    /// after, at the interference frequencies and over temperature.
+    Trim {
+        /// The budget file (YAML).
+        file: PathBuf,
+        /// The stage's label (a difference amplifier or a three-op-amp
+        /// in-amp; default: the first such stage).
+        #[arg(long, value_name = "LABEL")]
+        stage: Option<String>,
+        /// The trim's resolution as a ratio error, e.g. `10 ppm`.
+        #[arg(long, value_name = "FRACTION")]
+        resolution: String,
+        #[command(flatten)]
+        output: OutputArgs,
+    },
     /// Put several designs side by side: each interference source's CMRR,
     /// error, margin and dominant contributor per design.
     Compare {
@@ -143,6 +197,24 @@ struct RangeArgs {
     /// Points per decade.
     #[arg(long, value_name = "N")]
     per_decade: Option<u32>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum VaryArg {
+    /// The tolerance class of a stage's resistors (IEC 60062 ladder).
+    Resistors,
+    /// A matched network's ratio tolerance.
+    NetworkRatio,
+    /// The tolerance class of the input filter capacitors.
+    FilterCapacitors,
+    /// The source impedances' tolerance (the allowed imbalance).
+    SourceImbalance,
+    /// The TCR tracking of a stage's resistors.
+    Tracking,
+    /// A three-op-amp in-amp's first-stage gain.
+    FirstStageGain,
+    /// A differential pair's tail resistance.
+    Tail,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -200,6 +272,30 @@ fn run(cli: Cli) -> Result<u8, String> {
             plot,
             range,
         } => compare(&files, &output, plot.as_deref(), &range),
+        Command::Size {
+            file,
+            vary,
+            stage,
+            yield_target,
+            trials,
+            seed,
+            output,
+        } => size(
+            &file,
+            vary,
+            stage.as_deref(),
+            yield_target.as_deref(),
+            trials,
+            seed,
+            &output,
+        ),
+        Command::Improve { file, output } => improve(&file, &output),
+        Command::Trim {
+            file,
+            stage,
+            resolution,
+            output,
+        } => trim(&file, stage.as_deref(), &resolution, &output),
         Command::Yield {
             file,
             trials,
@@ -220,6 +316,154 @@ fn run(cli: Cli) -> Result<u8, String> {
             plot_at.as_deref(),
         ),
     }
+}
+
+fn size(
+    file: &Path,
+    vary: VaryArg,
+    stage: Option<&str>,
+    yield_target: Option<&str>,
+    trials: u64,
+    seed: u64,
+    output: &OutputArgs,
+) -> Result<u8, String> {
+    output.check_paths(&[file], None)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let kind = match vary {
+        VaryArg::Resistors => KnobKind::Resistors,
+        VaryArg::NetworkRatio => KnobKind::NetworkRatio,
+        VaryArg::FilterCapacitors => KnobKind::FilterCapacitors,
+        VaryArg::SourceImbalance => KnobKind::SourceImbalance,
+        VaryArg::Tracking => KnobKind::Tracking,
+        VaryArg::FirstStageGain => KnobKind::FirstStageGain,
+        VaryArg::Tail => KnobKind::Tail,
+    };
+    let knob =
+        Knob::find(&budget, kind, stage).map_err(|e| format!("{}: --vary: {e}", file.display()))?;
+    let (goal, goal_text) = match yield_target {
+        Some(text) => {
+            let q = parse_quantity(text, Dimension::Fraction)
+                .map_err(|e| format!("option --yield: {e}"))?;
+            if !(q.value > 0.0 && q.value < 1.0) {
+                return Err(format!(
+                    "option --yield: `{text}` must lie between 0 % and 100 %"
+                ));
+            }
+            if trials == 0 || trials > MAX_TRIALS {
+                return Err(format!(
+                    "--trials {trials}: a run takes 1 to {MAX_TRIALS} trials"
+                ));
+            }
+            (
+                Goal::Yield {
+                    fraction: q.value,
+                    trials,
+                    seed,
+                },
+                format!(
+                    "a yield of at least {} ({trials} trials per setting, seed {seed})",
+                    text.trim()
+                ),
+            )
+        }
+        None => (
+            Goal::WorstCase,
+            "the requirement as judged by `cmrr budget`".to_string(),
+        ),
+    };
+    let sizing = cmrr_budget::design::size(&budget, &knob, goal)
+        .map_err(|e| format!("{}: {e}", file.display()))?;
+    let report = sizing_report(&budget.name, goal_text, sizing);
+    let text = match output.format {
+        Format::Table => render_sizing_table(&report),
+        Format::Json => json(&report),
+        Format::Csv => {
+            return Err("`size` reports as a table or JSON; use --format table or json".into())
+        }
+    };
+    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    Ok(MET)
+}
+
+fn improve(file: &Path, output: &OutputArgs) -> Result<u8, String> {
+    output.check_paths(&[file], None)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let base = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
+    let allocation = cmrr_budget::design::allocate(&base);
+    let sensitivity = cmrr_budget::design::sensitivity(&budget)
+        .map_err(|e| format!("{}: {e}", file.display()))?;
+    let sources = budget.interference.iter().map(|s| s.name.clone()).collect();
+    let report = improve_report(&budget.name, sources, allocation, sensitivity);
+    let text = match output.format {
+        Format::Table => render_improve_table(&report),
+        Format::Json => json(&report),
+        Format::Csv => {
+            return Err("`improve` reports as a table or JSON; use --format table or json".into())
+        }
+    };
+    output.emit(&text, &base.cautions)?;
+    Ok(MET)
+}
+
+fn trim(
+    file: &Path,
+    stage: Option<&str>,
+    resolution: &str,
+    output: &OutputArgs,
+) -> Result<u8, String> {
+    output.check_paths(&[file], None)?;
+    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let resolution = parse_quantity(resolution, Dimension::Fraction)
+        .map_err(|e| format!("option --resolution: {e}"))?
+        .value;
+    if !(resolution > 0.0 && resolution < 1.0) {
+        return Err("option --resolution: a trim resolution lies between 0 and 100 %".into());
+    }
+    let trimmable = |kind: &cmrr_budget::stage::StageKind| {
+        matches!(
+            kind,
+            cmrr_budget::stage::StageKind::DifferenceAmp(_)
+                | cmrr_budget::stage::StageKind::ThreeOpAmpInAmp(_)
+        )
+    };
+    let index = match stage {
+        Some(label) => budget
+            .chain
+            .iter()
+            .position(|s| s.label == label && trimmable(&s.kind))
+            .ok_or_else(|| format!("{}: --stage: no difference amplifier or three-op-amp in-amp is labelled `{label}`", file.display()))?,
+        None => budget
+            .chain
+            .iter()
+            .position(|s| trimmable(&s.kind))
+            .ok_or_else(|| format!("{}: the chain has no difference stage to trim", file.display()))?,
+    };
+    let trimmed = cmrr_budget::design::trimmed(&budget, index, resolution)
+        .expect("the stage has a difference stage");
+    let before = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
+    let after = build_report(&trimmed).map_err(|e| format!("{}: {e}", file.display()))?;
+    let rows = before
+        .results
+        .iter()
+        .zip(&after.results)
+        .map(|(b, a)| TrimRow {
+            source: b.source.clone(),
+            frequency_hz: b.frequency_hz,
+            before_db: b.cmrr_db.worst_case.0,
+            after_db: a.cmrr_db.worst_case.0,
+            after_over_temperature_db: a.at_temperature.as_ref().map(|t| t.cmrr_db.worst_case.0),
+        })
+        .collect();
+    let report = trim_report(&budget.name, &budget.chain[index].label, resolution, rows);
+    let text = match output.format {
+        Format::Table => render_trim_table(&report),
+        Format::Json => json(&report),
+        Format::Csv => {
+            return Err("`trim` reports as a table or JSON; use --format table or json".into())
+        }
+    };
+    output.emit(&text, &before.cautions)?;
+    Ok(MET)
 }
 
 #[allow(clippy::too_many_arguments)]

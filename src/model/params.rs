@@ -159,6 +159,12 @@ impl Parameters {
         self.list[id.0].shape = shape;
     }
 
+    /// The parameter with this id, to change (design searches vary
+    /// nominal values and tolerances on a copy of the budget).
+    pub fn get_mut(&mut self, id: ParamId) -> &mut Parameter {
+        &mut self.list[id.0]
+    }
+
     /// The parameter with this id.
     pub fn get(&self, id: ParamId) -> &Parameter {
         &self.list[id.0]
@@ -196,6 +202,15 @@ impl Parameters {
             coefficients,
         });
         target
+    }
+
+    /// The parameter a derived one is computed from (itself when it is not
+    /// derived): the one to change to move its nominal value.
+    pub fn base_of(&self, id: ParamId) -> ParamId {
+        self.derivations
+            .iter()
+            .find(|d| d.target == id)
+            .map_or(id, |d| self.base_of(d.base))
     }
 
     /// Whether any parameter follows temperature.

@@ -7,6 +7,7 @@ mod cautions;
 mod checks;
 pub mod compare;
 pub mod csv;
+pub mod design;
 mod facts;
 pub mod json;
 pub mod sweep;

@@ -1,0 +1,484 @@
+//! Design from the requirement: the loosest setting of a free parameter
+//! that meets the requirement (worst case, or at a stated yield), what each
+//! contributor must improve by, what halving each tolerance buys, and the
+//! effect of trimming a difference stage.
+
+mod knobs;
+
+pub use knobs::{
+    Knob, KnobError, KnobKind, CAPACITOR_CLASSES, RATIO_STEPS, RESISTOR_CLASSES, TRACKING_STEPS,
+};
+
+use crate::engine::EngineError;
+use crate::model::{Budget, Variation};
+use crate::montecarlo::{TemperatureMode, YieldOptions};
+use crate::report::yield_report::build_yield_report;
+use crate::report::{build_report, ContributionKind, Report};
+use crate::stage::StageKind;
+use serde::Serialize;
+use std::sync::atomic::AtomicBool;
+
+/// What a setting must achieve.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Goal {
+    /// Every requirement met by the report's judged totals (worst case by
+    /// default), over the temperature range.
+    WorstCase,
+    /// At least this fraction of Monte Carlo trials meeting the whole
+    /// requirement.
+    Yield {
+        /// The required fraction.
+        fraction: f64,
+        /// Trials per setting.
+        trials: u64,
+        /// The master seed.
+        seed: u64,
+    },
+}
+
+/// Why a design question cannot be answered.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum DesignError {
+    /// The budget states no requirement to size against.
+    #[error("the budget states no requirement, so there is nothing to size against; add a `requirement` (or a source's `max_error`)")]
+    NoRequirement,
+    /// The knob is not in the budget.
+    #[error(transparent)]
+    Knob(#[from] KnobError),
+    /// The engine failed.
+    #[error(transparent)]
+    Engine(#[from] EngineError),
+    /// The Monte Carlo failed.
+    #[error("{0}")]
+    Yield(String),
+}
+
+/// One setting tried.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Step {
+    /// The setting (a tolerance fraction, a tracking in 1/K, a gain, a
+    /// resistance in ohms).
+    pub setting: f64,
+    /// The setting as text.
+    pub label: String,
+    /// Whether it meets the goal.
+    pub meets: bool,
+    /// The smallest requirement margin, dB (worst-case goal).
+    pub margin_db: Option<f64>,
+    /// The passing fraction (yield goal).
+    pub yield_fraction: Option<f64>,
+}
+
+/// A contributor the knob cannot overcome.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Blocker {
+    /// The contributor.
+    pub contributor: String,
+    /// Its stage.
+    pub stage: String,
+    /// Where the requirement is tightest, e.g. `mains hum on the cable`.
+    pub at: String,
+    /// Its CMRR alone, dB.
+    pub cmrr_db: f64,
+    /// The CMRR the requirement allows all contributors together there, dB.
+    pub allowed_db: f64,
+}
+
+/// The answer to a sizing question.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Sizing {
+    /// What was sized, e.g. `resistors of gain stage`.
+    pub what: String,
+    /// Its setting in the budget as written.
+    pub current: Option<String>,
+    /// The loosest setting that meets the goal; null when none does.
+    pub answer: Option<Step>,
+    /// Every setting tried, loosest first.
+    pub steps: Vec<Step>,
+    /// When no setting meets the goal and other contributors alone exceed
+    /// the allowance: the largest of them.
+    pub blocker: Option<Blocker>,
+}
+
+fn has_requirement(budget: &Budget) -> bool {
+    budget.requirement.is_some() || budget.interference.iter().any(|s| s.max_error.is_some())
+}
+
+/// Judge one budget against the goal.
+fn judge(budget: &Budget, goal: Goal) -> Result<(bool, Option<f64>, Option<f64>), DesignError> {
+    match goal {
+        Goal::WorstCase => {
+            let report = build_report(budget)?;
+            Ok((
+                report.verdict.met.unwrap_or(true),
+                report.verdict.margin_db.map(|m| m.0),
+                None,
+            ))
+        }
+        Goal::Yield {
+            fraction,
+            trials,
+            seed,
+        } => {
+            let temperature = if budget.temperature.is_some() {
+                TemperatureMode::Drawn
+            } else {
+                TemperatureMode::Reference
+            };
+            let options = YieldOptions {
+                trials,
+                seed,
+                temperature,
+            };
+            let (report, _) = build_yield_report(budget, options, &|_| {}, &AtomicBool::new(false))
+                .map_err(|e| DesignError::Yield(e.to_string()))?;
+            let achieved = report.overall_yield.map_or(1.0, |y| y.fraction);
+            Ok((achieved >= fraction, None, Some(achieved)))
+        }
+    }
+}
+
+fn step(
+    knob: &Knob,
+    budget: &Budget,
+    setting: f64,
+    label: String,
+    goal: Goal,
+) -> Result<Step, DesignError> {
+    let (meets, margin_db, yield_fraction) = judge(&knob.apply(budget, setting), goal)?;
+    Ok(Step {
+        setting,
+        label,
+        meets,
+        margin_db,
+        yield_fraction,
+    })
+}
+
+/// Find the loosest setting of `knob` that meets `goal`.
+pub fn size(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Sizing, DesignError> {
+    if !has_requirement(budget) {
+        return Err(DesignError::NoRequirement);
+    }
+    let steps: Vec<Step> = match knob.steps() {
+        Some(settings) => settings
+            .into_iter()
+            .map(|(setting, label)| step(knob, budget, setting, label, goal))
+            .collect::<Result<_, _>>()?,
+        None => continuous(budget, knob, goal)?,
+    };
+    let answer = match knob {
+        // Continuous knobs: the last step is the least that meets.
+        Knob::FirstStageGain { .. } | Knob::TailResistance { .. } => {
+            steps.iter().rev().find(|s| s.meets).cloned()
+        }
+        _ => steps.iter().find(|s| s.meets).cloned(),
+    };
+    let tightest = match knob {
+        Knob::FirstStageGain { .. } | Knob::TailResistance { .. } => steps.first(),
+        _ => steps.last(),
+    };
+    let blocker = match (&answer, tightest) {
+        (None, Some(tightest)) => blocker(&knob.apply(budget, tightest.setting), knob)?,
+        _ => None,
+    };
+    let what = match knob {
+        Knob::ResistorClass { .. } => "resistor tolerance class",
+        Knob::NetworkRatio { .. } => "network ratio tolerance",
+        Knob::FilterCapacitors { .. } => "filter capacitor tolerance",
+        Knob::SourceImbalance { .. } => "source impedance tolerance (allowed imbalance)",
+        Knob::Tracking { .. } => "resistor TCR tracking",
+        Knob::FirstStageGain { .. } => "first-stage gain",
+        Knob::TailResistance { .. } => "tail output resistance",
+    };
+    Ok(Sizing {
+        what: format!("{what} of {}", budget.chain[knob.stage()].label),
+        current: knob.current(budget).map(|c| knob.describe(c)),
+        answer,
+        steps,
+        blocker,
+    })
+}
+
+/// A continuous knob: bisect on a log scale for the least gain or tail
+/// resistance that meets the goal; the steps record the bracket, the
+/// highest setting first and the answer last.
+fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, DesignError> {
+    let (low, high) = match knob {
+        Knob::FirstStageGain { .. } => (1.01f64, 1e4f64),
+        _ => (10.0f64, 1e12f64),
+    };
+    let mut steps = vec![step(knob, budget, high, knob.describe(high), goal)?];
+    if !steps[0].meets {
+        return Ok(steps);
+    }
+    let bottom = step(knob, budget, low, knob.describe(low), goal)?;
+    if bottom.meets {
+        steps.push(bottom);
+        return Ok(steps);
+    }
+    let (mut lo, mut hi) = (low.ln(), high.ln());
+    let mut best = steps[0].clone();
+    for _ in 0..40 {
+        let mid = ((lo + hi) / 2.0).exp();
+        let trial = step(knob, budget, mid, knob.describe(mid), goal)?;
+        if trial.meets {
+            hi = mid.ln();
+            best = trial;
+        } else {
+            lo = mid.ln();
+        }
+        if hi - lo < 1e-4 {
+            break;
+        }
+    }
+    steps.push(best);
+    Ok(steps)
+}
+
+/// Where the requirement is tightest in `budget`: the largest contributor
+/// outside `knob`, when those contributors alone exceed the allowance.
+fn blocker(budget: &Budget, knob: &Knob) -> Result<Option<Blocker>, DesignError> {
+    let report = build_report(budget)?;
+    let own: Vec<(String, String)> = knob
+        .params()
+        .iter()
+        .map(|id| {
+            let p = budget.parameters.get(*id);
+            (p.name.clone(), budget.chain[p.stage].label.clone())
+        })
+        .collect();
+    let candidates = report
+        .results
+        .iter()
+        .filter_map(|r| {
+            r.requirement.as_ref().map(|o| {
+                (
+                    r.source.clone(),
+                    r.cmrr_db.worst_case.0,
+                    o.margin_db.0,
+                    &r.contributions,
+                )
+            })
+        })
+        .chain(report.frequencies.iter().filter_map(|f| {
+            f.requirement.as_ref().map(|o| {
+                (
+                    format!("{} Hz", f.frequency_hz),
+                    f.cmrr_db.worst_case.0,
+                    o.margin_db.0,
+                    &f.contributions,
+                )
+            })
+        }));
+    let Some((at, total_db, margin_db, rows)) = candidates.min_by(|a, b| a.2.total_cmp(&b.2))
+    else {
+        return Ok(None);
+    };
+    let allowed_db = total_db - margin_db;
+    let allowed = 10f64.powf(-allowed_db / 20.0);
+    let others: Vec<_> = rows
+        .iter()
+        .filter(|row| {
+            row.kind == ContributionKind::Systematic
+                || !own.iter().any(|(n, s)| *n == row.name && *s == row.stage)
+        })
+        .collect();
+    let others_sum: f64 = others
+        .iter()
+        .map(|row| 10f64.powf(-row.cmrr_db.0 / 20.0))
+        .sum();
+    if others_sum < allowed {
+        return Ok(None);
+    }
+    Ok(others.first().map(|row| Blocker {
+        contributor: row.name.clone(),
+        stage: row.stage.clone(),
+        at,
+        cmrr_db: row.cmrr_db.0,
+        allowed_db,
+    }))
+}
+
+/// One contributor against its share of the allowance.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Allocation {
+    /// The contributor.
+    pub contributor: String,
+    /// Its stage.
+    pub stage: String,
+    /// Its value and spread.
+    pub value: String,
+    /// Its CMRR alone now, dB.
+    pub cmrr_db: f64,
+    /// The CMRR it is allowed alone (an equal share of the allowance), dB.
+    pub allowance_db: f64,
+    /// How many dB it must improve (zero when within its share).
+    pub must_improve_db: f64,
+}
+
+/// The allocation at one checked point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AllocationTable {
+    /// The source or frequency.
+    pub at: String,
+    /// The CMRR the requirement allows all contributors together, dB.
+    pub allowed_db: f64,
+    /// Each contributor, largest first.
+    pub rows: Vec<Allocation>,
+}
+
+/// Split each checked point's allowed conversion equally over its
+/// contributors (worst case adds magnitudes, so N shares of allowed/N meet
+/// it exactly) and say how far each is from its share.
+pub fn allocate(report: &Report) -> Vec<AllocationTable> {
+    let mut tables = Vec::new();
+    let points = report
+        .results
+        .iter()
+        .filter_map(|r| {
+            r.requirement.as_ref().map(|o| {
+                (
+                    r.source.clone(),
+                    r.cmrr_db.judged(o.judged_on).0,
+                    o.margin_db.0,
+                    &r.contributions,
+                )
+            })
+        })
+        .chain(report.frequencies.iter().filter_map(|f| {
+            f.requirement.as_ref().map(|o| {
+                (
+                    crate::quantity::format_si(f.frequency_hz, "Hz"),
+                    f.cmrr_db.judged(o.judged_on).0,
+                    o.margin_db.0,
+                    &f.contributions,
+                )
+            })
+        }));
+    for (at, total_db, margin_db, rows) in points {
+        let active: Vec<_> = rows.iter().filter(|r| r.cmrr_db.0.is_finite()).collect();
+        let allowed_db = total_db - margin_db;
+        let share_db = allowed_db + 20.0 * (active.len().max(1) as f64).log10();
+        tables.push(AllocationTable {
+            at,
+            allowed_db,
+            rows: active
+                .iter()
+                .map(|r| Allocation {
+                    contributor: r.name.clone(),
+                    stage: r.stage.clone(),
+                    value: r.value.clone(),
+                    cmrr_db: r.cmrr_db.0,
+                    allowance_db: share_db,
+                    must_improve_db: (share_db - r.cmrr_db.0).max(0.0),
+                })
+                .collect(),
+        });
+    }
+    tables
+}
+
+/// What halving one parameter's spread buys.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Sensitivity {
+    /// The parameter.
+    pub parameter: String,
+    /// Its stage.
+    pub stage: String,
+    /// Its value and spread now.
+    pub value: String,
+    /// Per interference source (in file order): the worst-case CMRR gained,
+    /// dB.
+    pub gain_db: Vec<f64>,
+}
+
+/// For every varying parameter, the worst-case CMRR gained at each
+/// interference source when its tolerance (or bound) halves; largest gain at
+/// the tightest source first.
+pub fn sensitivity(budget: &Budget) -> Result<Vec<Sensitivity>, DesignError> {
+    let base = build_report(budget)?;
+    let tightest = base
+        .results
+        .iter()
+        .enumerate()
+        .min_by(|a, b| {
+            let margin = |r: &crate::report::SourceResult| {
+                r.requirement
+                    .as_ref()
+                    .map_or(r.cmrr_db.worst_case.0, |o| o.margin_db.0)
+            };
+            margin(a.1).total_cmp(&margin(b.1))
+        })
+        .map_or(0, |(i, _)| i);
+    let mut out = Vec::new();
+    for (id, parameter) in budget.parameters.iter().filter(|(_, p)| p.varies()) {
+        let mut halved = budget.clone();
+        let p = halved.parameters.get_mut(id);
+        p.variation = match p.variation {
+            Variation::Relative { tolerance } => Variation::Relative {
+                tolerance: tolerance / 2.0,
+            },
+            Variation::SignedBound { magnitude } => Variation::SignedBound {
+                magnitude: magnitude / 2.0,
+            },
+            other => other,
+        };
+        let report = build_report(&halved)?;
+        out.push(Sensitivity {
+            parameter: parameter.name.clone(),
+            stage: budget.chain[parameter.stage].label.clone(),
+            value: parameter.describe(),
+            gain_db: report
+                .results
+                .iter()
+                .zip(&base.results)
+                .map(|(new, old)| new.cmrr_db.worst_case.0 - old.cmrr_db.worst_case.0)
+                .collect(),
+        });
+    }
+    out.sort_by(|a, b| {
+        b.gain_db
+            .get(tightest)
+            .unwrap_or(&0.0)
+            .total_cmp(a.gain_db.get(tightest).unwrap_or(&0.0))
+    });
+    Ok(out)
+}
+
+/// The difference stage of `stage`, for trimming.
+fn difference_resistors(budget: &Budget, stage: usize) -> Option<[crate::model::ParamId; 4]> {
+    let base = |id| budget.parameters.base_of(id);
+    match &budget.chain[stage].kind {
+        StageKind::DifferenceAmp(amp) => {
+            Some([base(amp.r1), base(amp.r2), base(amp.r3), base(amp.r4)])
+        }
+        StageKind::ThreeOpAmpInAmp(amp) => {
+            let d = &amp.difference_stage;
+            Some([base(d.r1), base(d.r2), base(d.r3), base(d.r4)])
+        }
+        _ => None,
+    }
+}
+
+/// A copy of `budget` with the difference stage of `stage` trimmed at DC:
+/// R1 to R3 exact and R4 within ±`resolution` (the trim's residual ratio
+/// error); temperature coefficients stay, so drift over the range remains.
+pub fn trimmed(budget: &Budget, stage: usize, resolution: f64) -> Option<Budget> {
+    let [r1, r2, r3, r4] = difference_resistors(budget, stage)?;
+    let mut trimmed = budget.clone();
+    for id in [r1, r2, r3] {
+        trimmed.parameters.get_mut(id).variation = Variation::Fixed;
+    }
+    trimmed.parameters.get_mut(r4).variation = Variation::Relative {
+        tolerance: resolution,
+    };
+    trimmed.parameters.get_mut(r4).name = "R4 (trim residual)".into();
+    // A matched network's own errors are trimmed out too.
+    for (id, p) in budget.parameters.iter() {
+        if p.stage == stage && p.name.ends_with(" ratio error") {
+            trimmed.parameters.get_mut(id).variation = Variation::Fixed;
+        }
+    }
+    Some(trimmed)
+}
