@@ -90,7 +90,7 @@ impl Sub for Mat2 {
 }
 
 /// The largest nodal system any stage builds.
-pub const MAX_NODES: usize = 6;
+pub const MAX_NODES: usize = 5;
 
 /// A dense complex nodal system `Y v = I` of at most [`MAX_NODES`] unknowns,
 /// with two right-hand sides (one per driving input), solved in place by
@@ -182,20 +182,25 @@ impl NodalSystem {
     /// Solve for both right-hand sides. Returns the node voltages per unit of
     /// each input, `solution[node][input]`, or `None` when the system is
     /// singular (no unique small-signal solution).
-    pub fn solve(mut self) -> Option<[[C64; 2]; MAX_NODES]> {
+    // Elimination walks rows and columns by number; iterators would hide it.
+    #[allow(clippy::needless_range_loop)]
+    pub fn solve(&mut self) -> Option<[[C64; 2]; MAX_NODES]> {
         let n = self.size;
+        // |re| + |im| ranks pivots as well as the modulus, without a square
+        // root; the pivots' reciprocals serve the back substitution.
+        let size = |z: C64| z.re.abs() + z.im.abs();
+        let mut inverse = [ZERO; MAX_NODES];
         for col in 0..n {
-            let pivot_row = (col..n).max_by(|&a, &b| {
-                self.matrix[a][col]
-                    .norm()
-                    .total_cmp(&self.matrix[b][col].norm())
-            })?;
+            let pivot_row = (col..n)
+                .max_by(|&a, &b| size(self.matrix[a][col]).total_cmp(&size(self.matrix[b][col])))?;
             let pivot = self.matrix[pivot_row][col];
-            if pivot.norm() == 0.0 || !pivot.norm().is_finite() {
+            let magnitude = size(pivot);
+            if magnitude == 0.0 || !magnitude.is_finite() {
                 return None;
             }
             self.matrix.swap(col, pivot_row);
             self.rhs.swap(col, pivot_row);
+            inverse[col] = pivot.inv();
             for row in col + 1..n {
                 let factor = self.matrix[row][col] / pivot;
                 if factor == ZERO {
@@ -221,8 +226,7 @@ impl NodalSystem {
                 sums[0] -= coefficient * known[0];
                 sums[1] -= coefficient * known[1];
             }
-            let pivot = self.matrix[row][row];
-            solution[row] = [sums[0] / pivot, sums[1] / pivot];
+            solution[row] = [sums[0] * inverse[row], sums[1] * inverse[row]];
         }
         let finite = solution[..n]
             .iter()
