@@ -135,6 +135,13 @@ enum Command {
     Improve {
         /// The budget file (YAML).
         file: PathBuf,
+        /// Also rank by the Monte Carlo yield gained, with this many trials
+        /// per parameter (same seed throughout).
+        #[arg(long, value_name = "N")]
+        yield_trials: Option<u64>,
+        /// The master seed for the yield ranking.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
         #[command(flatten)]
         output: OutputArgs,
     },
@@ -289,7 +296,12 @@ fn run(cli: Cli) -> Result<u8, String> {
             seed,
             &output,
         ),
-        Command::Improve { file, output } => improve(&file, &output),
+        Command::Improve {
+            file,
+            yield_trials,
+            seed,
+            output,
+        } => improve(&file, yield_trials, seed, &output),
         Command::Trim {
             file,
             stage,
@@ -385,12 +397,24 @@ fn size(
     Ok(MET)
 }
 
-fn improve(file: &Path, output: &OutputArgs) -> Result<u8, String> {
+fn improve(
+    file: &Path,
+    yield_trials: Option<u64>,
+    seed: u64,
+    output: &OutputArgs,
+) -> Result<u8, String> {
+    if let Some(trials) = yield_trials {
+        if trials == 0 || trials > MAX_TRIALS {
+            return Err(format!(
+                "--yield-trials {trials}: a run takes 1 to {MAX_TRIALS} trials"
+            ));
+        }
+    }
     output.check_paths(&[file], None)?;
     let budget = load_budget(file).map_err(|e| e.to_string())?;
     let base = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
     let allocation = cmrr_budget::design::allocate(&base);
-    let sensitivity = cmrr_budget::design::sensitivity(&budget)
+    let sensitivity = cmrr_budget::design::sensitivity(&budget, yield_trials.map(|t| (t, seed)))
         .map_err(|e| format!("{}: {e}", file.display()))?;
     let sources = budget.interference.iter().map(|s| s.name.clone()).collect();
     let report = improve_report(&budget.name, sources, allocation, sensitivity);

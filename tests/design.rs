@@ -209,6 +209,27 @@ fn design_commands_refuse_bad_arguments() {
         .assert()
         .code(2)
         .stderr(predicates::str::contains("no requirement"));
+    // The yield ranking, when asked.
+    let output = cmrr()
+        .current_dir(root)
+        .args([
+            "improve",
+            "budgets/motor-shunt.yaml",
+            "--yield-trials",
+            "300",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(0));
+    let report: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
+    assert!(report["sensitivity"][0]["yield_gain"].is_number());
+    cmrr()
+        .current_dir(root)
+        .args(["improve", "budgets/motor-shunt.yaml", "--yield-trials", "0"])
+        .assert()
+        .code(2);
     // The commands run on the examples.
     cmrr()
         .current_dir(root)

@@ -391,12 +391,33 @@ pub struct Sensitivity {
     /// Per interference source (in file order): the worst-case CMRR gained,
     /// dB.
     pub gain_db: Vec<f64>,
+    /// The Monte Carlo yield gained against the whole requirement, when
+    /// asked for (a fraction; the same seed and trials as the base yield).
+    pub yield_gain: Option<f64>,
 }
 
 /// For every varying parameter, the worst-case CMRR gained at each
 /// interference source when its tolerance (or bound) halves; largest gain at
 /// the tightest source first.
-pub fn sensitivity(budget: &Budget) -> Result<Vec<Sensitivity>, DesignError> {
+pub fn sensitivity(
+    budget: &Budget,
+    yield_trials: Option<(u64, u64)>,
+) -> Result<Vec<Sensitivity>, DesignError> {
+    let yield_of = |b: &Budget| -> Result<Option<f64>, DesignError> {
+        let Some((trials, seed)) = yield_trials else {
+            return Ok(None);
+        };
+        let (_, _, fraction) = judge(
+            b,
+            Goal::Yield {
+                fraction: 1.0,
+                trials,
+                seed,
+            },
+        )?;
+        Ok(fraction)
+    };
+    let base_yield = yield_of(budget)?;
     let base = build_report(budget)?;
     let tightest = base
         .results
@@ -425,7 +446,12 @@ pub fn sensitivity(budget: &Budget) -> Result<Vec<Sensitivity>, DesignError> {
             other => other,
         };
         let report = build_report(&halved)?;
+        let yield_gain = match (base_yield, yield_of(&halved)?) {
+            (Some(before), Some(after)) => Some(after - before),
+            _ => None,
+        };
         out.push(Sensitivity {
+            yield_gain,
             parameter: parameter.name.clone(),
             stage: budget.chain[parameter.stage].label.clone(),
             value: parameter.describe(),

@@ -133,17 +133,25 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
         "\nworst-case CMRR gained when one spread halves (largest at the tightest source first)\n",
     );
     let mut builder = Builder::default();
+    let with_yield = report.sensitivity.iter().any(|r| r.yield_gain.is_some());
     let mut header = vec!["parameter".to_string(), "stage".into(), "value".into()];
     header.extend(report.sources.iter().cloned());
+    if with_yield {
+        header.push("yield gained".into());
+    }
     builder.push_record(header);
-    for row in report
-        .sensitivity
-        .iter()
-        .filter(|r| r.gain_db.iter().any(|g| *g > 0.005))
-        .take(15)
-    {
+    let worth_showing = |r: &&Sensitivity| {
+        r.gain_db.iter().any(|g| *g > 0.005) || r.yield_gain.is_some_and(|y| y > 0.0)
+    };
+    for row in report.sensitivity.iter().filter(worth_showing).take(15) {
         let mut record = vec![row.parameter.clone(), row.stage.clone(), row.value.clone()];
         record.extend(row.gain_db.iter().map(|g| format!("+{g:.2} dB")));
+        if with_yield {
+            record.push(
+                row.yield_gain
+                    .map_or("—".into(), |y| format!("{:+.2} %", y * 100.0)),
+            );
+        }
         builder.push_record(record);
     }
     out.push_str(&styled(builder, 3));
