@@ -140,7 +140,11 @@ impl Validator<'_> {
 
     fn network(&mut self, raw: &RawNetwork, path: &str, stage: usize) -> ResistorSet {
         let mut set = ResistorSet::default();
-        if raw.tolerance.is_none() && raw.ratio_tolerance.is_none() && raw.tcr.is_none() {
+        if raw.tolerance.is_none()
+            && raw.ratio_tolerance.is_none()
+            && raw.tcr.is_none()
+            && raw.tracking.is_none()
+        {
             self.problem(
                 path,
                 "the network states nothing",
