@@ -154,12 +154,13 @@ impl Validator<'_> {
                 Range::Positive,
                 false,
             )?;
-            Some(self.signed_bound(
+            Some(self.bound(
+                "input offset",
                 q.value,
                 &field("offset"),
                 stage,
-                "input offset",
                 Dimension::Voltage,
+                q.distribution,
             ))
         });
         let gm_mismatch = raw.gm_mismatch.as_ref().and_then(|m| {
@@ -170,12 +171,13 @@ impl Validator<'_> {
                 Range::Positive,
                 false,
             )?;
-            Some(self.signed_bound(
+            Some(self.bound(
+                "gm mismatch",
                 q.value,
                 &field("gm_mismatch"),
                 stage,
-                "gm mismatch",
                 Dimension::Fraction,
+                q.distribution,
             ))
         });
         let degeneration = legs(
@@ -340,26 +342,6 @@ impl Validator<'_> {
             supply: supply?,
             input_drop: input_drop?,
             saturation: saturation?,
-        })
-    }
-
-    /// A bound of unknown sign around zero.
-    fn signed_bound(
-        &mut self,
-        magnitude: f64,
-        path: &str,
-        stage: usize,
-        name: &str,
-        dimension: Dimension,
-    ) -> ParamId {
-        self.parameters.add(Parameter {
-            name: name.into(),
-            stage,
-            field: path.into(),
-            nominal: 0.0,
-            variation: Variation::SignedBound { magnitude },
-            presentation: Presentation::Value(dimension),
-            shape: None,
         })
     }
 

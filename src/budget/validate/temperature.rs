@@ -251,7 +251,7 @@ impl Validator<'_> {
     }
 
     /// A quantity of unknown sign around zero, bounded by `magnitude`.
-    fn bound(
+    pub(super) fn bound(
         &mut self,
         name: &str,
         magnitude: f64,
