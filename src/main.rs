@@ -27,7 +27,7 @@ use cmrr_budget::report::{
     build_report, csv::render_csv, json::render_json, table::render_table, Db, Report,
 };
 use cmrr_budget::sweep::{
-    run_sweep, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE, DEFAULT_TO_HZ,
+    run_sweep, run_sweep_at, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE, DEFAULT_TO_HZ,
 };
 use serde::Serialize;
 use std::io::{self, IsTerminal, Write};
@@ -73,6 +73,10 @@ enum Command {
         /// Print a compact text chart instead of the table.
         #[arg(long)]
         chart: bool,
+        /// Where the temperature sits: reference (default), cold or hot end
+        /// of the budget's range.
+        #[arg(long, value_enum)]
+        temperature: Option<TemperatureArg>,
     },
     /// Monte Carlo over the parts' spreads with the exact engine: CMRR and
     /// error percentiles, yield against the requirement with its confidence
@@ -272,7 +276,8 @@ fn run(cli: Cli) -> Result<u8, String> {
             output,
             plot,
             chart,
-        } => sweep(&file, &range, &output, plot.as_deref(), chart),
+            temperature,
+        } => sweep(&file, &range, &output, plot.as_deref(), chart, temperature),
         Command::Compare {
             files,
             output,
@@ -657,6 +662,7 @@ fn sweep(
     output: &OutputArgs,
     plot: Option<&Path>,
     chart: bool,
+    temperature: Option<TemperatureArg>,
 ) -> Result<u8, String> {
     if chart && output.format != Format::Table {
         return Err(
@@ -666,9 +672,27 @@ fn sweep(
     output.check_paths(&[file], plot)?;
     let budget = load_budget(file).map_err(|e| e.to_string())?;
     let spec = range.spec(Some(&budget))?;
-    let sweep = run_sweep(&budget, spec).map_err(|e| format!("{}: {e}", file.display()))?;
-    let report =
-        build_sweep_report(&budget, &sweep).map_err(|e| format!("{}: {e}", file.display()))?;
+    let delta_t = match (temperature, budget.temperature) {
+        (None | Some(TemperatureArg::Reference), _) => 0.0,
+        (Some(TemperatureArg::Drawn), _) => {
+            return Err(
+                "--temperature drawn belongs to `cmrr yield`; a sweep takes reference, cold or hot"
+                    .into(),
+            );
+        }
+        (Some(TemperatureArg::Cold), Some(r)) => r.low_k - r.reference_k,
+        (Some(TemperatureArg::Hot), Some(r)) => r.high_k - r.reference_k,
+        (Some(_), None) => {
+            return Err(format!(
+                "{}: the budget has no temperature range, so a sweep runs at the reference only",
+                file.display()
+            ));
+        }
+    };
+    let sweep =
+        run_sweep_at(&budget, spec, delta_t).map_err(|e| format!("{}: {e}", file.display()))?;
+    let report = build_sweep_report(&budget, &sweep, delta_t)
+        .map_err(|e| format!("{}: {e}", file.display()))?;
     if let Some(path) = plot {
         let svg = render_sweep_svg(&report).map_err(|e| e.to_string())?;
         write_file(path, &svg)?;

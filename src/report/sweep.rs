@@ -3,7 +3,7 @@
 //! dominant contributor changes; rendered as a table, CSV, JSON or a plot.
 
 use super::{Db, Totals, SCHEMA_VERSION};
-use crate::engine::{analyse_point, EngineError};
+use crate::engine::{analyse_point_at, EngineError};
 use crate::model::Budget;
 use crate::plot::{plot_sweep, text_chart, PlotError, MAX_CONTRIBUTOR_CURVES};
 use crate::quantity::{format_db, format_si};
@@ -61,6 +61,8 @@ pub struct SweepReport {
     pub to_hz: f64,
     /// Points per decade.
     pub points_per_decade: u32,
+    /// The temperature swept at, kelvin; null for the reference.
+    pub temperature_k: Option<f64>,
     /// The contributors, the nominal imbalance first.
     pub contributors: Vec<SweepContributor>,
     /// One row per frequency, ascending.
@@ -81,13 +83,18 @@ fn totals_db(worst_case: f64, rss: f64, nominal: f64) -> Totals<Db> {
     }
 }
 
-fn exact_totals(budget: &Budget, freq: f64) -> Result<Totals<Db>, EngineError> {
-    let a = analyse_point(budget, freq)?;
+fn exact_totals(budget: &Budget, freq: f64, delta_t: f64) -> Result<Totals<Db>, EngineError> {
+    let a = analyse_point_at(budget, freq, delta_t)?;
     Ok(totals_db(a.worst_case(), a.rss(), a.nominal_magnitude()))
 }
 
-/// Assemble the report of a finished sweep.
-pub fn build_sweep_report(budget: &Budget, sweep: &Sweep) -> Result<SweepReport, EngineError> {
+/// Assemble the report of a finished sweep, run `delta_t` kelvin from the
+/// reference temperature.
+pub fn build_sweep_report(
+    budget: &Budget,
+    sweep: &Sweep,
+    delta_t: f64,
+) -> Result<SweepReport, EngineError> {
     let points = sweep
         .points
         .iter()
@@ -110,7 +117,7 @@ pub fn build_sweep_report(budget: &Budget, sweep: &Sweep) -> Result<SweepReport,
             Ok(RequiredPoint {
                 frequency_hz: m.frequency_hz,
                 required_db: Db(m.cmrr_db),
-                cmrr_db: exact_totals(budget, m.frequency_hz)?,
+                cmrr_db: exact_totals(budget, m.frequency_hz, delta_t)?,
             })
         })
         .collect::<Result<Vec<_>, EngineError>>()?;
@@ -121,7 +128,7 @@ pub fn build_sweep_report(budget: &Budget, sweep: &Sweep) -> Result<SweepReport,
             Ok(InterferencePoint {
                 source: s.name.clone(),
                 frequency_hz: s.frequency_hz,
-                cmrr_db: exact_totals(budget, s.frequency_hz)?,
+                cmrr_db: exact_totals(budget, s.frequency_hz, delta_t)?,
             })
         })
         .collect::<Result<Vec<_>, EngineError>>()?;
@@ -131,6 +138,10 @@ pub fn build_sweep_report(budget: &Budget, sweep: &Sweep) -> Result<SweepReport,
         from_hz: sweep.spec.from_hz,
         to_hz: sweep.spec.to_hz,
         points_per_decade: sweep.spec.per_decade,
+        temperature_k: budget
+            .temperature
+            .filter(|_| delta_t != 0.0)
+            .map(|r| r.reference_k + delta_t),
         contributors: sweep.contributors.clone(),
         points,
         required,
@@ -142,11 +153,14 @@ pub fn build_sweep_report(budget: &Budget, sweep: &Sweep) -> Result<SweepReport,
 /// The sweep as a terminal table, with the exact points and changes after.
 pub fn render_sweep_table(report: &SweepReport) -> String {
     let mut out = format!(
-        "CMRR sweep: {}\n{} to {}, {} points per decade\n",
+        "CMRR sweep: {}\n{} to {}, {} points per decade{}\n",
         report.budget,
         format_si(report.from_hz, "Hz"),
         format_si(report.to_hz, "Hz"),
-        report.points_per_decade
+        report.points_per_decade,
+        report
+            .temperature_k
+            .map_or(String::new(), |k| format!(", at {:.1} °C", k - 273.15))
     );
     let mut table = Builder::default();
     table.push_record([

@@ -1,7 +1,7 @@
 //! Sweeps over frequency: the totals and every contributor's CMRR at
 //! log-spaced frequencies, and where the dominant contributor changes.
 
-use crate::engine::{analyse_point, EngineError, PointAnalysis};
+use crate::engine::{analyse_point_at, EngineError, PointAnalysis};
 use crate::model::Budget;
 use rayon::prelude::*;
 
@@ -203,15 +203,22 @@ impl Sweep {
     }
 }
 
-/// Solve the budget at every frequency of `spec`.
+/// Solve the budget at every frequency of `spec`, at the reference
+/// temperature.
 pub fn run_sweep(budget: &Budget, spec: SweepSpec) -> Result<Sweep, SweepFailure> {
+    run_sweep_at(budget, spec, 0.0)
+}
+
+/// Solve the budget at every frequency of `spec`, `delta_t` kelvin from the
+/// reference temperature.
+pub fn run_sweep_at(budget: &Budget, spec: SweepSpec, delta_t: f64) -> Result<Sweep, SweepFailure> {
     let frequencies = spec.frequencies()?;
     let contributors = contributor_list(budget);
     // Frequencies are independent: solve them on every core. `collect`
     // keeps their order, so the result does not depend on scheduling.
     let points = frequencies
         .par_iter()
-        .map(|&f| analyse_point(budget, f).map(|a| sweep_point(&a)))
+        .map(|&f| analyse_point_at(budget, f, delta_t).map(|a| sweep_point(&a)))
         .collect::<Result<Vec<_>, _>>()?;
     Ok(Sweep {
         spec,
