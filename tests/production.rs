@@ -285,3 +285,48 @@ fn yield_command_formats_and_refusals() {
         .code(2)
         .stderr(predicates::str::contains("no temperature range"));
 }
+
+/// The Monte Carlo's fast evaluator solves the same equations as the general
+/// engine: on random draws of every example it can handle, the two agree.
+#[test]
+fn fast_evaluator_matches_the_general_engine() {
+    use cmrr_budget::engine::chain_response;
+    use cmrr_budget::montecarlo::{FastChain, Prepared, Sampler, SplitMix64};
+    use cmrr_budget::stage::Point;
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let mut checked = 0;
+    for entry in std::fs::read_dir(root.join("budgets")).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().is_none_or(|e| e != "yaml") {
+            continue;
+        }
+        let b = cmrr_budget::budget::load_budget(&path).unwrap();
+        let Some(fast) = FastChain::new(&b) else {
+            continue;
+        };
+        checked += 1;
+        let sampler = Sampler::new(&b);
+        let mut values = b.parameters.nominal_values();
+        let mut prepared = Prepared::default();
+        for trial in 0..200 {
+            let mut rng = SplitMix64::for_trial(11, trial);
+            sampler.fill(&mut values, &mut rng);
+            b.parameters.resolve(&mut values, 0.0);
+            fast.prepare(&values, &mut prepared);
+            for freq in [0.0, 50.0, 1e3, 2e4, 1e6] {
+                let point = Point::new(freq, &values);
+                let general = chain_response(&b.chain, &point)
+                    .unwrap()
+                    .conversion()
+                    .norm();
+                let quick = fast.conversion(&prepared, freq);
+                assert!(
+                    (quick - general).abs() <= 1e-9 * general + 1e-11,
+                    "{}: {freq} Hz: {quick} against {general}",
+                    path.display()
+                );
+            }
+        }
+    }
+    assert!(checked >= 4, "only {checked} examples had a fast form");
+}

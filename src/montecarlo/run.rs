@@ -2,7 +2,7 @@
 //! trial's values drawn from its own stream, every analysis frequency solved
 //! exactly, and statistics that merge the same way whatever the threads did.
 
-use super::{CmrrHistogram, Sampler, SplitMix64};
+use super::{CmrrHistogram, FastChain, Prepared, Sampler, SplitMix64};
 use crate::engine::{chain_response, EngineError, RESOLUTION_FLOOR};
 use crate::model::Budget;
 use crate::stage::Point;
@@ -177,6 +177,9 @@ pub fn run_yield(
         return Err(YieldError::NoTemperatureRange);
     }
     let sampler = Sampler::new(budget);
+    // The closed-form evaluator where the chain has one; the general engine
+    // otherwise. Both solve the same equations (tested against each other).
+    let fast = FastChain::new(budget);
     let nominal = budget.parameters.nominal_values();
     let chunks = options.trials.div_ceil(CHUNK);
     let next_chunk = AtomicU64::new(0);
@@ -189,6 +192,7 @@ pub fn run_yield(
             let mut tally = Tally::new(frequencies.len(), checks.len());
             let mut values = nominal.clone();
             let mut conversions = vec![0.0; frequencies.len()];
+            let mut prepared = Prepared::default();
             loop {
                 if stop.load(Ordering::Relaxed) {
                     break;
@@ -211,22 +215,27 @@ pub fn run_yield(
                         _ => 0.0,
                     };
                     budget.parameters.resolve(&mut values, delta_t);
+                    if let Some(fast) = &fast {
+                        fast.prepare(&values, &mut prepared);
+                    }
                     for (index, &freq) in frequencies.iter().enumerate() {
-                        match chain_response(&budget.chain, &Point::new(freq, &values)) {
-                            Ok(response) => {
-                                let conversion = response.conversion().norm();
-                                conversions[index] = conversion;
-                                tally.histograms[index].record(to_db(conversion), trial);
-                            }
-                            Err(error) => {
-                                failure
-                                    .lock()
-                                    .expect("no thread panics holding it")
-                                    .get_or_insert(YieldError::Engine { trial, error });
-                                stop.store(true, Ordering::Relaxed);
-                                return tally;
-                            }
-                        }
+                        let conversion = match &fast {
+                            Some(fast) => fast.conversion(&prepared, freq),
+                            None => match chain_response(&budget.chain, &Point::new(freq, &values))
+                            {
+                                Ok(response) => response.conversion().norm(),
+                                Err(error) => {
+                                    failure
+                                        .lock()
+                                        .expect("no thread panics holding it")
+                                        .get_or_insert(YieldError::Engine { trial, error });
+                                    stop.store(true, Ordering::Relaxed);
+                                    return tally;
+                                }
+                            },
+                        };
+                        conversions[index] = conversion;
+                        tally.histograms[index].record(to_db(conversion), trial);
                     }
                     let mut all = true;
                     for (count, check) in tally.check_passes.iter_mut().zip(checks) {
