@@ -255,7 +255,7 @@ fn blocker(budget: &Budget, knob: &Knob) -> Result<Option<Blocker>, DesignError>
             r.requirement.as_ref().map(|o| {
                 (
                     r.source.clone(),
-                    r.cmrr_db.worst_case.0,
+                    o.allowed_cmrr_db.0,
                     o.margin_db.0,
                     &r.contributions,
                 )
@@ -264,18 +264,16 @@ fn blocker(budget: &Budget, knob: &Knob) -> Result<Option<Blocker>, DesignError>
         .chain(report.frequencies.iter().filter_map(|f| {
             f.requirement.as_ref().map(|o| {
                 (
-                    format!("{} Hz", f.frequency_hz),
-                    f.cmrr_db.worst_case.0,
+                    crate::quantity::format_si(f.frequency_hz, "Hz"),
+                    o.allowed_cmrr_db.0,
                     o.margin_db.0,
                     &f.contributions,
                 )
             })
         }));
-    let Some((at, total_db, margin_db, rows)) = candidates.min_by(|a, b| a.2.total_cmp(&b.2))
-    else {
+    let Some((at, allowed_db, _, rows)) = candidates.min_by(|a, b| a.2.total_cmp(&b.2)) else {
         return Ok(None);
     };
-    let allowed_db = total_db - margin_db;
     let allowed = 10f64.powf(-allowed_db / 20.0);
     let others: Vec<_> = rows
         .iter()
@@ -337,28 +335,21 @@ pub fn allocate(report: &Report) -> Vec<AllocationTable> {
         .results
         .iter()
         .filter_map(|r| {
-            r.requirement.as_ref().map(|o| {
-                (
-                    r.source.clone(),
-                    r.cmrr_db.judged(o.judged_on).0,
-                    o.margin_db.0,
-                    &r.contributions,
-                )
-            })
+            r.requirement
+                .as_ref()
+                .map(|o| (r.source.clone(), o.allowed_cmrr_db.0, &r.contributions))
         })
         .chain(report.frequencies.iter().filter_map(|f| {
             f.requirement.as_ref().map(|o| {
                 (
                     crate::quantity::format_si(f.frequency_hz, "Hz"),
-                    f.cmrr_db.judged(o.judged_on).0,
-                    o.margin_db.0,
+                    o.allowed_cmrr_db.0,
                     &f.contributions,
                 )
             })
         }));
-    for (at, total_db, margin_db, rows) in points {
+    for (at, allowed_db, rows) in points {
         let active: Vec<_> = rows.iter().filter(|r| r.cmrr_db.0.is_finite()).collect();
-        let allowed_db = total_db - margin_db;
         let share_db = allowed_db + 20.0 * (active.len().max(1) as f64).log10();
         tables.push(AllocationTable {
             at,

@@ -238,6 +238,7 @@ fn source_result(
         checks.push(error_check(
             &limit,
             judged.judged(judged_on(requirement)) * source.amplitude.peak_volts(),
+            source.amplitude.peak_volts(),
         ));
     }
     SourceResult {

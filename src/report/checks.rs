@@ -24,9 +24,14 @@ pub(super) fn outcome(
         .iter()
         .map(|c| c.margin_db)
         .min_by(|a, b| a.0.total_cmp(&b.0))?;
+    let allowed = checks
+        .iter()
+        .map(|c| c.allowed_cmrr_db)
+        .max_by(|a, b| a.0.total_cmp(&b.0))?;
     Some(RequirementOutcome {
         met: checks.iter().all(|c| c.met),
         margin_db: margin,
+        allowed_cmrr_db: allowed,
         judged_on: judged_on(requirement),
         checks,
     })
@@ -59,14 +64,16 @@ pub(super) fn cmrr_checks(
                 ),
                 achieved: format!("CMRR {}", format_db(achieved.0)),
                 margin_db: margin,
+                allowed_cmrr_db: Db(m.cmrr_db),
                 met: margin.0 >= 0.0,
             }
         })
         .collect()
 }
 
-/// Compare an error (peak volts, referred to the input) with its limit.
-pub(super) fn error_check(limit: &ErrorLimit, error_peak: f64) -> Check {
+/// Compare an error (peak volts, referred to the input) with its limit,
+/// for a source of peak common mode `source_peak`.
+pub(super) fn error_check(limit: &ErrorLimit, error_peak: f64, source_peak: f64) -> Check {
     let limit_peak = limit.peak_volts();
     let margin = if error_peak == 0.0 {
         Db(f64::INFINITY)
@@ -104,6 +111,7 @@ pub(super) fn error_check(limit: &ErrorLimit, error_peak: f64) -> Check {
         limit: limit_text,
         achieved,
         margin_db: margin,
+        allowed_cmrr_db: Db::from_conversion(limit_peak / source_peak),
         met: margin.0 >= 0.0,
     }
 }

@@ -151,6 +151,9 @@ pub struct Check {
     pub achieved: String,
     /// Margin in dB: positive when met.
     pub margin_db: Db,
+    /// The chain CMRR this check allows at the least (for an error limit:
+    /// the limit over the source's amplitude).
+    pub allowed_cmrr_db: Db,
     /// Whether it is met.
     pub met: bool,
 }
@@ -162,6 +165,8 @@ pub struct RequirementOutcome {
     pub met: bool,
     /// The smallest margin among the checks, in dB.
     pub margin_db: Db,
+    /// The least chain CMRR the checks allow together (the tightest).
+    pub allowed_cmrr_db: Db,
     /// Which total was judged.
     pub judged_on: Judgement,
     /// Each check.
