@@ -345,6 +345,17 @@ fn new_stage_examples_report_their_facts() {
         .iter()
         .any(|f| f.as_str().unwrap().contains("tail output resistance")));
     let integrated = run("bridge-integrated-inamp.yaml");
+    // Bias current through 175 Ω + 100 Ω per leg (each ±0.1 %): 2 nA × 0.55 Ω
+    // of worst imbalance plus 0.5 nA × 550.55 Ω (Ohm's law; common
+    // practice, no source).
+    let facts = integrated["facts"].as_array().unwrap();
+    assert!(
+        facts.iter().any(|f| f
+            .as_str()
+            .unwrap()
+            .contains("leaves up to 276 nV of offset")),
+        "{facts:?}"
+    );
     let findings = integrated["headroom"].as_array().unwrap();
     assert!(
         findings.iter().any(|f| f["node"] == "output"),

@@ -243,6 +243,10 @@ pub struct RawIntegratedInAmp {
     pub input_range: Option<Vec<Scalar>>,
     #[serde(default)]
     pub output_swing: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub input_bias_current: Option<Scalar>,
+    #[serde(default)]
+    pub input_offset_current: Option<Scalar>,
 }
 
 /// `G = base + constant / RG`.
@@ -365,6 +369,10 @@ pub struct RawOpAmp {
     pub input_range: Option<Vec<Scalar>>,
     #[serde(default)]
     pub output_swing: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub input_bias_current: Option<Scalar>,
+    #[serde(default)]
+    pub input_offset_current: Option<Scalar>,
 }
 
 /// A common-mode interference source.

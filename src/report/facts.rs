@@ -134,5 +134,71 @@ pub(super) fn facts(budget: &Budget) -> Vec<String> {
             StageKind::SourceNetwork(_) => {}
         }
     }
+    if let Some(fact) = bias_current_offset(budget) {
+        facts.push(fact);
+    }
     facts
+}
+
+/// The offset the first amplifier's input bias current leaves through the
+/// source's unequal DC resistances (not a CMRR term, but part of the same
+/// imbalance): `Ib |R_p − R_n| + (Ios/2)(R_p + R_n)`, with each resistance
+/// at the end of its tolerance that makes it worse.
+fn bias_current_offset(budget: &Budget) -> Option<String> {
+    let [first, second] = [budget.chain.first()?, budget.chain.get(1)?];
+    let StageKind::SourceNetwork(network) = &first.kind else {
+        return None;
+    };
+    let (bias, offset) = match &second.kind {
+        StageKind::ThreeOpAmpInAmp(a) => (
+            a.first_stage[0].input_bias_current,
+            a.first_stage[0].input_offset_current,
+        ),
+        StageKind::IntegratedInAmp(a) => (a.input_bias_current, a.input_offset_current),
+        _ => return None,
+    };
+    if bias.is_none() && offset.is_none() {
+        return None;
+    }
+    let (bias, offset) = (bias.unwrap_or(0.0), offset.unwrap_or(0.0));
+    let part = |id: crate::model::ParamId| {
+        let p = budget.parameters.get(id);
+        let tolerance = match p.variation {
+            Variation::Relative { tolerance } => tolerance,
+            _ => 0.0,
+        };
+        (p.nominal, tolerance)
+    };
+    let leg = |leg: &crate::stage::Leg| {
+        let (mut r, mut spread) = match leg.source {
+            crate::stage::SourceImpedance::Resistive { resistance, .. } => {
+                let (r, t) = part(resistance);
+                (r, r * t)
+            }
+            crate::stage::SourceImpedance::BridgeNode {
+                upper_arm,
+                lower_arm,
+            } => {
+                let ((a, ta), (b, tb)) = (part(upper_arm), part(lower_arm));
+                let r = a * b / (a + b);
+                (r, r * ta.max(tb))
+            }
+        };
+        if let Some(series) = leg.series_resistance {
+            let (rs, t) = part(series);
+            r += rs;
+            spread += rs * t;
+        }
+        (r, spread)
+    };
+    let ((rp, sp), (rn, sn)) = (leg(&network.legs[0]), leg(&network.legs[1]));
+    let worst = bias * ((rp - rn).abs() + sp + sn) + offset / 2.0 * (rp + rn + sp + sn);
+    Some(format!(
+        "input bias current {} (offset current {}) through the source's DC resistances of {} and {} leaves up to {} of offset referred to the input (a DC error, not a CMRR term)",
+        format_si(bias, "A"),
+        format_si(offset, "A"),
+        format_si(rp, "Ω"),
+        format_si(rn, "Ω"),
+        format_si(worst, "V")
+    ))
 }

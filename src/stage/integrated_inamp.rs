@@ -61,6 +61,10 @@ pub struct IntegratedInAmp {
     pub input_range: Option<VoltageRange>,
     /// The output swing, for the headroom check.
     pub output_swing: Option<VoltageRange>,
+    /// The largest input bias current, A.
+    pub input_bias_current: Option<f64>,
+    /// The largest input offset current, A.
+    pub input_offset_current: Option<f64>,
 }
 
 impl StageSolve for IntegratedInAmp {
@@ -117,6 +121,8 @@ mod tests {
             pins: [PinShunt::default(); 2],
             input_range: None,
             output_swing: None,
+            input_bias_current: None,
+            input_offset_current: None,
         };
         let dc = MixedMode::from_nodes(
             &amp.transfer(&Point::new(0.0, &values), &Mat2::ZERO)

@@ -148,6 +148,9 @@ pub struct Stage {
 }
 
 /// The kinds of stage the engine can solve.
+// A chain holds at most 16 stages and the engine reads them in its inner
+// loop; keeping the larger variants inline avoids a pointer chase there.
+#[allow(clippy::large_enum_variant)]
 #[derive(Debug, Clone, PartialEq)]
 pub enum StageKind {
     /// Source impedances, cable, input filter: drives the first amplifier.

@@ -29,6 +29,11 @@ pub struct OpAmp {
     pub input_range: Option<VoltageRange>,
     /// The output swing, for the headroom check.
     pub output_swing: Option<VoltageRange>,
+    /// The largest input bias current, A (for the offset it leaves through
+    /// unequal source resistances; not a CMRR term).
+    pub input_bias_current: Option<f64>,
+    /// The largest input offset current, A.
+    pub input_offset_current: Option<f64>,
 }
 
 impl OpAmp {

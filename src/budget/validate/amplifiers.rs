@@ -181,6 +181,14 @@ impl Validator<'_> {
             pins,
             input_range,
             output_swing,
+            input_bias_current: self.current(
+                raw.input_bias_current.as_ref(),
+                &format!("{path}.input_bias_current"),
+            ),
+            input_offset_current: self.current(
+                raw.input_offset_current.as_ref(),
+                &format!("{path}.input_offset_current"),
+            ),
         }))
     }
 
@@ -231,6 +239,12 @@ impl Validator<'_> {
             span_volts: span.value,
             bits: raw.bits,
         }))
+    }
+
+    /// A data-sheet current (a bias or offset current), in amperes.
+    fn current(&mut self, raw: Option<&Scalar>, path: &str) -> Option<f64> {
+        self.quantity(raw?, path, Dimension::Current, Range::NonNegative, false)
+            .map(|q| q.value)
     }
 
     /// A `[low, high]` voltage range.
@@ -559,6 +573,14 @@ impl Validator<'_> {
                 .voltage_range(raw.input_range.as_deref(), &format!("{path}.input_range")),
             output_swing: self
                 .voltage_range(raw.output_swing.as_deref(), &format!("{path}.output_swing")),
+            input_bias_current: self.current(
+                raw.input_bias_current.as_ref(),
+                &format!("{path}.input_bias_current"),
+            ),
+            input_offset_current: self.current(
+                raw.input_offset_current.as_ref(),
+                &format!("{path}.input_offset_current"),
+            ),
         }
     }
 }
