@@ -366,11 +366,7 @@ fn size(
                     "option --yield: `{text}` must lie between 0 % and 100 %"
                 ));
             }
-            if trials == 0 || trials > MAX_TRIALS {
-                return Err(format!(
-                    "--trials {trials}: a run takes 1 to {MAX_TRIALS} trials"
-                ));
-            }
+            check_trial_count("--trials", trials)?;
             (
                 Goal::Yield {
                     fraction: q.value,
@@ -409,11 +405,7 @@ fn improve(
     output: &OutputArgs,
 ) -> Result<u8, String> {
     if let Some(trials) = yield_trials {
-        if trials == 0 || trials > MAX_TRIALS {
-            return Err(format!(
-                "--yield-trials {trials}: a run takes 1 to {MAX_TRIALS} trials"
-            ));
-        }
+        check_trial_count("--yield-trials", trials)?;
     }
     output.check_paths(&[file], None)?;
     let budget = load_budget(file).map_err(|e| e.to_string())?;
@@ -506,11 +498,7 @@ fn production_yield(
     plot: Option<&Path>,
     plot_at: Option<&str>,
 ) -> Result<u8, String> {
-    if trials == 0 || trials > MAX_TRIALS {
-        return Err(format!(
-            "--trials {trials}: a run takes 1 to {MAX_TRIALS} trials; run several seeds for more"
-        ));
-    }
+    check_trial_count("--trials", trials)?;
     output.check_paths(&[file], plot)?;
     let budget = load_budget(file).map_err(|e| e.to_string())?;
     let mode = match temperature {
@@ -911,4 +899,15 @@ fn write_file(path: &Path, text: &str) -> Result<(), String> {
         let _ = std::fs::remove_file(&temporary);
     }
     result.map_err(fail)
+}
+
+/// Refuse a trial count outside what one run may take (`option` names the
+/// flag it came from).
+fn check_trial_count(option: &str, trials: u64) -> Result<(), String> {
+    if trials == 0 || trials > MAX_TRIALS {
+        return Err(format!(
+            "{option} {trials}: a run takes 1 to {MAX_TRIALS} trials; run several seeds for more"
+        ));
+    }
+    Ok(())
 }

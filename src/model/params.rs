@@ -213,11 +213,6 @@ impl Parameters {
             .map_or(id, |d| self.base_of(d.base))
     }
 
-    /// Whether any parameter follows temperature.
-    pub fn has_derivations(&self) -> bool {
-        !self.derivations.is_empty()
-    }
-
     /// Recompute every derived value from the others at a temperature
     /// excursion `delta_t` (kelvin from the reference).
     pub fn resolve(&self, values: &mut [f64], delta_t: f64) {

@@ -62,16 +62,6 @@ impl Sampler {
         Sampler { draws, sigmas }
     }
 
-    /// How many parameters vary.
-    pub fn len(&self) -> usize {
-        self.draws.len()
-    }
-
-    /// Whether none varies.
-    pub fn is_empty(&self) -> bool {
-        self.draws.is_empty()
-    }
-
     /// Overwrite the varying entries of `values` with one trial's draw.
     pub fn fill(&self, values: &mut [f64], rng: &mut SplitMix64) {
         for draw in &self.draws {
