@@ -2,7 +2,10 @@
 //! built as one flat modified-nodal-analysis (MNA) system and solved with a
 //! general-purpose linear-algebra library (nalgebra's LU), compared with the
 //! engine's stage-by-stage solve through the public API. The two share no
-//! code beyond the budget-file reader.
+//! code beyond the budget-file reader. Method: C.-W. Ho, A. E. Ruehli and
+//! P. A. Brennan, "The modified nodal approach to network analysis", IEEE
+//! Trans. Circuits and Systems CAS-22(6), 1975 (from memory); op-amps enter
+//! as the usual single-pole voltage-controlled sources.
 
 use cmrr_budget::budget::parse_budget;
 use cmrr_budget::engine::chain_response;
