@@ -1,5 +1,8 @@
 //! Common-mode rejection budgets for differential sensor front ends.
 #![warn(missing_docs)]
+// No unsafe code, except the call into the Monte Carlo kernel's AVX2 build
+// once the processor has reported AVX2 (`montecarlo::fast`), allowed there.
+#![deny(unsafe_code)]
 
 pub mod budget;
 pub mod design;

@@ -40,8 +40,8 @@ fn run(b: &Budget, trials: u64, seed: u64) -> cmrr_budget::montecarlo::YieldRun 
 /// with R4 = R(1 + δ), the exact common-mode gain (R1 R4 − R2 R3)/(R1 (R3 +
 /// R4)) (Pallas-Areny and Webster 1991) gives ε(δ), monotone in δ, so
 /// P(CMRR < c) = 1 − (δ₊(c) − δ₋(c))/(2t) where ε(δ±) = ±10^(−c/20). The
-/// Monte Carlo percentiles must match this to the histogram's 0.05 dB plus
-/// sampling spread.
+/// Monte Carlo percentiles must match this to the histogram's bin width (at
+/// most 0.034 dB) plus sampling spread.
 #[test]
 fn percentiles_follow_the_closed_form() {
     let t = 0.01;
@@ -332,13 +332,16 @@ fn fast_evaluator_matches_the_general_engine() {
             sampler.fill(&mut values, &mut rng);
             b.parameters.resolve(&mut values, 0.0);
             fast.prepare(&values, &mut prepared);
-            for freq in [0.0, 50.0, 1e3, 2e4, 1e6] {
+            // Five frequencies: one whole block of lanes and a short one.
+            let frequencies = [0.0, 50.0, 1e3, 2e4, 1e6];
+            let mut squared = [0.0; 5];
+            fast.conversions_squared(&prepared, &frequencies, &mut squared);
+            for (freq, quick) in frequencies.into_iter().zip(squared.map(f64::sqrt)) {
                 let point = Point::new(freq, &values);
                 let general = chain_response(&b.chain, &point)
                     .unwrap()
                     .conversion()
                     .norm();
-                let quick = fast.conversion(&prepared, freq);
                 assert!(
                     (quick - general).abs() <= 1e-9 * general + 1e-11,
                     "{path}: {freq} Hz: {quick} against {general}"

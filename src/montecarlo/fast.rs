@@ -4,24 +4,39 @@
 //! which scales the common-mode and differential responses of a
 //! single-ended output alike and so leaves ε unchanged).
 //!
-//! The same equations as the general engine, eliminated by hand: each leg's
-//! cable node is substituted out of the source network, leaving a 2×2 in
-//! the two pins, and the in-amp's inverting inputs out of its first stage,
-//! leaving a 2×2 in its two outputs; both are solved by Cramer's rule. What
-//! does not depend on frequency (conductances, ratios, reciprocals) is
-//! computed once per trial by [`FastChain::prepare`]; per frequency only a
-//! few dozen complex operations remain, with no allocation. The general
-//! engine stays the reference: tests compare the two on random draws.
+//! The same equations as the general engine, eliminated by hand, and built
+//! for speed by structure alone:
+//!
+//! - What does not depend on frequency (conductances, ratios, reciprocals)
+//!   is computed once per trial by [`FastChain::prepare`].
+//! - Each leg's cable node is substituted out of the source network, leaving
+//!   a 2×2 in the two pins; the in-amp's inverting inputs are substituted
+//!   out of its first stage, leaving a 2×2 in its two outputs.
+//! - ε is a ratio of two responses of one linear system, so any factor
+//!   common to both cancels: a 2×2 is solved by its adjugate without the
+//!   determinant, an equation is multiplied through by its denominators
+//!   instead of divided by them, and a gain shared by both responses (an
+//!   integrated in-amp's gain and bandwidth) is left out. Per frequency
+//!   there is one division, for |ε|² itself.
+//! - The per-frequency work runs on [`LANES`] frequencies at once in
+//!   structure-of-arrays form ([`super::lanes`]), compiled twice: for the
+//!   baseline instruction set and, chosen when the processor reports it,
+//!   for 256-bit vectors. Both give the same bits.
+//!
+//! The general engine stays the reference: tests compare the two on random
+//! draws of every example.
 
-use crate::engine::linalg::{C64, ONE, ZERO};
+use super::lanes::{Complexes, Reals, LANES, ONE, ZERO};
 use crate::model::{Budget, ParamId};
-use crate::stage::{DifferenceAmp, GainSetting, OpAmp, SourceImpedance, StageKind};
+use crate::stage::{DifferenceAmp, OpAmp, SourceImpedance, StageKind};
 
 /// The chain shapes the fast evaluator handles.
 #[derive(Debug, Clone)]
 pub struct FastChain {
     source: Option<crate::stage::SourceNetwork>,
     amplifier: StageKind,
+    /// Whether the processor runs the 256-bit build of the kernel.
+    wide: bool,
 }
 
 /// An op-amp's frequency-independent values.
@@ -30,24 +45,26 @@ struct OpAmpValues {
     inverse_a0: f64,
     inverse_gbw: f64,
     c0: f64,
-    inverse_corner: f64,
+    c0_per_corner: f64,
 }
 
 impl OpAmpValues {
     fn of(opamp: &OpAmp, v: &[f64]) -> OpAmpValues {
+        let c0 = opamp.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
         OpAmpValues {
             inverse_a0: opamp.open_loop_gain.map_or(0.0, |id| 1.0 / v[id.0]),
             inverse_gbw: opamp.gain_bandwidth_hz.map_or(0.0, |id| 1.0 / v[id.0]),
-            c0: opamp.cmrr_reciprocal.map_or(0.0, |id| v[id.0]),
-            inverse_corner: opamp.cmrr_corner_hz.map_or(0.0, |id| 1.0 / v[id.0]),
+            c0,
+            c0_per_corner: opamp.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
         }
     }
 
     /// (1/A(jf), 1/CMRR(jf)).
-    fn at(&self, f: f64) -> (C64, C64) {
+    #[inline(always)]
+    fn at(&self, f: Reals) -> (Complexes, Complexes) {
         (
-            C64::new(self.inverse_a0, f * self.inverse_gbw),
-            C64::new(self.c0, self.c0 * f * self.inverse_corner),
+            Complexes::with_imaginary(self.inverse_a0, f * self.inverse_gbw),
+            Complexes::with_imaginary(self.c0, f * self.c0_per_corner),
         )
     }
 }
@@ -61,6 +78,14 @@ struct DifferenceValues {
     feedback: f64,
     p_conductance: f64,
     opamp: OpAmpValues,
+}
+
+/// A difference stage's output per volt at each pin, both multiplied by
+/// the same factor `1/scale`: (m_p·scale, m_n·scale, scale).
+struct ScaledGains {
+    p: Complexes,
+    n: Complexes,
+    scale: Complexes,
 }
 
 impl DifferenceValues {
@@ -77,13 +102,19 @@ impl DifferenceValues {
         }
     }
 
-    /// The output per volt at each pin, (m_p, m_n).
-    fn gains(&self, f: f64) -> (C64, C64) {
+    /// m_p = (1 + c/2)·k3 / (1/A + (1 − c/2)·β) and
+    /// m_n = −(1 − c/2)·α / (1/A + (1 − c/2)·β), kept as numerators over
+    /// their common denominator.
+    #[inline(always)]
+    fn gains(&self, f: Reals) -> ScaledGains {
         let (a_inv, c) = self.opamp.at(f);
-        let plus = ONE + c / 2.0;
-        let minus = ONE - c / 2.0;
-        let inverse = (a_inv + minus * self.beta).inv();
-        (plus * self.k3 * inverse, -(minus * self.alpha) * inverse)
+        let half_c = c * 0.5;
+        let minus = ONE - half_c;
+        ScaledGains {
+            p: (ONE + half_c) * self.k3,
+            n: -(minus * self.alpha),
+            scale: a_inv + minus * self.beta,
+        }
     }
 }
 
@@ -98,6 +129,41 @@ struct LegValues {
     shunt_g: f64,
 }
 
+/// The amplifier's frequency-independent values.
+#[derive(Debug, Clone, Copy)]
+enum AmplifierValues {
+    /// A difference amplifier driven straight from the pins.
+    Difference(DifferenceValues),
+    /// A three-op-amp in-amp.
+    ThreeOpAmp {
+        pins: [PinValues; 2],
+        first: [OpAmpValues; 2],
+        g_gain: f64,
+        g_feedback: [f64; 2],
+        difference: DifferenceValues,
+    },
+    /// An integrated in-amp: only its CMRR matters to ε, its gain and
+    /// bandwidth being common to both responses.
+    Block {
+        pins: [PinValues; 2],
+        c0: f64,
+        c0_per_corner: f64,
+    },
+}
+
+impl Default for AmplifierValues {
+    fn default() -> AmplifierValues {
+        AmplifierValues::Difference(DifferenceValues::default())
+    }
+}
+
+/// A pin's shunt to ground: conductance and capacitance.
+#[derive(Debug, Clone, Copy, Default)]
+struct PinValues {
+    conductance: f64,
+    capacitance: f64,
+}
+
 /// Everything one trial needs, computed once.
 #[derive(Debug, Clone, Default)]
 pub struct Prepared {
@@ -105,29 +171,33 @@ pub struct Prepared {
     guard: f64,
     differential_c: f64,
     has_source: bool,
-    /// Pin admittances of an in-amp: conductance and capacitance.
-    pins: [(f64, f64); 2],
-    kind: u8,
-    difference: DifferenceValues,
-    first: [OpAmpValues; 2],
-    g_gain: f64,
-    g_feedback: [f64; 2],
-    gain: f64,
-    inverse_bandwidth: f64,
-    block_c0: f64,
-    block_inverse_corner: f64,
+    amplifier: AmplifierValues,
 }
 
-/// The inverse of a 2×2 (Cramer), to apply to several right-hand sides.
-fn inverse2(m: [[C64; 2]; 2]) -> [[C64; 2]; 2] {
-    let d = (m[0][0] * m[1][1] - m[0][1] * m[1][0]).inv();
-    [[m[1][1] * d, -m[0][1] * d], [-m[1][0] * d, m[0][0] * d]]
+/// The amplifier seen from the source: output ∝ `row` · pin voltages, and
+/// the current it draws from pin i, times `scale[i]` (when given), is
+/// `admittance[i]` · pin voltages.
+struct Loaded {
+    row: [Complexes; 2],
+    admittance: [[Complexes; 2]; 2],
+    scale: [Option<Complexes>; 2],
 }
 
-fn apply2(m: &[[C64; 2]; 2], v: [C64; 2]) -> [C64; 2] {
+/// `value` × `scale`, or `value` where there is no scale.
+#[inline(always)]
+fn scaled(value: Complexes, scale: Option<Complexes>) -> Complexes {
+    match scale {
+        Some(s) => value * s,
+        None => value,
+    }
+}
+
+/// The adjugate of a 2×2 applied to a vector: M⁻¹·v times det M.
+#[inline(always)]
+fn adjugate_apply(m: &[[Complexes; 2]; 2], v: [Complexes; 2]) -> [Complexes; 2] {
     [
-        m[0][0] * v[0] + m[0][1] * v[1],
-        m[1][0] * v[0] + m[1][1] * v[1],
+        m[1][1] * v[0] - m[0][1] * v[1],
+        m[0][0] * v[1] - m[1][0] * v[0],
     ]
 }
 
@@ -155,6 +225,7 @@ impl FastChain {
             | StageKind::IntegratedInAmp(_) => Some(FastChain {
                 source,
                 amplifier: amplifier.clone(),
+                wide: wide_vectors_available(),
             }),
             _ => None,
         }
@@ -189,148 +260,286 @@ impl FastChain {
             }
         }
         let pin_values = |pins: &[crate::stage::PinShunt; 2]| {
-            [0, 1].map(|i| {
-                (
-                    pins[i].resistance.map_or(0.0, |id| 1.0 / v[id.0]),
-                    optional(pins[i].capacitance, v),
-                )
+            [0, 1].map(|i| PinValues {
+                conductance: pins[i].resistance.map_or(0.0, |id| 1.0 / v[id.0]),
+                capacitance: optional(pins[i].capacitance, v),
             })
         };
-        match &self.amplifier {
-            StageKind::DifferenceAmp(d) => {
-                prepared.kind = 0;
-                prepared.difference = DifferenceValues::of(d, v);
-            }
-            StageKind::ThreeOpAmpInAmp(a) => {
-                prepared.kind = 1;
-                prepared.pins = pin_values(&a.pins);
-                prepared.difference = DifferenceValues::of(&a.difference_stage, v);
-                prepared.first = [
+        prepared.amplifier = match &self.amplifier {
+            StageKind::DifferenceAmp(d) => AmplifierValues::Difference(DifferenceValues::of(d, v)),
+            StageKind::ThreeOpAmpInAmp(a) => AmplifierValues::ThreeOpAmp {
+                pins: pin_values(&a.pins),
+                first: [
                     OpAmpValues::of(&a.first_stage[0], v),
                     OpAmpValues::of(&a.first_stage[1], v),
-                ];
-                prepared.g_gain = 1.0 / v[a.rg.0];
-                prepared.g_feedback = [1.0 / v[a.rf1.0], 1.0 / v[a.rf2.0]];
-            }
+                ],
+                g_gain: 1.0 / v[a.rg.0],
+                g_feedback: [1.0 / v[a.rf1.0], 1.0 / v[a.rf2.0]],
+                difference: DifferenceValues::of(&a.difference_stage, v),
+            },
             StageKind::IntegratedInAmp(a) => {
-                prepared.kind = 2;
-                prepared.pins = pin_values(&a.pins);
-                prepared.gain = match a.gain {
-                    GainSetting::Direct(id) => v[id.0],
-                    GainSetting::Resistor {
-                        rg,
-                        base,
-                        constant_ohms,
-                    } => base + constant_ohms / v[rg.0],
-                };
-                prepared.inverse_bandwidth = a.bandwidth_hz.map_or(0.0, |id| 1.0 / v[id.0]);
-                prepared.block_c0 = optional(a.cmrr_reciprocal, v);
-                prepared.block_inverse_corner = a.cmrr_corner_hz.map_or(0.0, |id| 1.0 / v[id.0]);
+                let c0 = optional(a.cmrr_reciprocal, v);
+                AmplifierValues::Block {
+                    pins: pin_values(&a.pins),
+                    c0,
+                    c0_per_corner: a.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+                }
             }
             _ => unreachable!("FastChain::new admits only these amplifiers"),
-        }
+        };
     }
 
     /// |ε| at frequency `f` (Hz) for a prepared trial.
     pub fn conversion(&self, p: &Prepared, f: f64) -> f64 {
-        let omega = 2.0 * std::f64::consts::PI * f;
-        // The amplifier as a row: output = row · pins; and its input
-        // admittance as the source's load.
-        let (row, load) = match p.kind {
-            0 => {
-                let d = &p.difference;
-                let (m_p, m_n) = d.gains(f);
-                let load = [
-                    [C64::new(d.p_conductance, 0.0), ZERO],
-                    [-m_p * d.feedback, (ONE - m_n) * d.feedback],
-                ];
-                ([m_p, m_n], load)
-            }
-            1 => {
-                // y_i = q_i v_i − r_i o_i, into the two inverting-input KCLs:
-                // M o = B v, so o = M⁻¹ B v.
-                let g_g = p.g_gain;
-                let [g1, g2] = p.g_feedback;
-                let coefficients = |opamp: &OpAmpValues| {
-                    let (a_inv, c) = opamp.at(f);
-                    let minus = (ONE - c / 2.0).inv();
-                    ((ONE + c / 2.0) * minus, a_inv * minus)
-                };
-                let (q1, r1) = coefficients(&p.first[0]);
-                let (q2, r2) = coefficients(&p.first[1]);
-                let m = inverse2([
-                    [-(g1 + g_g) * r1 - g1, r2 * g_g],
-                    [r1 * g_g, -(g2 + g_g) * r2 - g2],
-                ]);
-                let column_p = apply2(&m, [-(g1 + g_g) * q1, q1 * g_g]);
-                let column_n = apply2(&m, [q2 * g_g, -(g2 + g_g) * q2]);
-                let (m_p, m_n) = p.difference.gains(f);
-                let row = [
-                    m_p * column_p[0] + m_n * column_p[1],
-                    m_p * column_n[0] + m_n * column_n[1],
-                ];
-                (row, pin_load(&p.pins, omega))
-            }
-            _ => {
-                let gain = C64::new(p.gain, 0.0) / C64::new(1.0, f * p.inverse_bandwidth);
-                let c = C64::new(p.block_c0, p.block_c0 * f * p.block_inverse_corner);
-                (
-                    [gain * (ONE + c / 2.0), -gain * (ONE - c / 2.0)],
-                    pin_load(&p.pins, omega),
-                )
-            }
-        };
-        let half = C64::new(0.5, 0.0);
-        let (cm, dm) = if p.has_source {
-            source_pins(p, omega, &load)
-        } else {
-            ([ONE, ONE], [half, -half])
-        };
-        let out_cm = row[0] * cm[0] + row[1] * cm[1];
-        let out_dm = row[0] * dm[0] + row[1] * dm[1];
-        (out_cm.norm_sqr() / out_dm.norm_sqr()).sqrt()
+        let mut out = [0.0];
+        self.conversions_squared(p, &[f], &mut out);
+        out[0].sqrt()
+    }
+
+    /// |ε|² at each of `frequencies` (Hz) for a prepared trial, into `out`
+    /// (the same length).
+    #[allow(unsafe_code)] // the one call into the AVX2 build, below
+    pub fn conversions_squared(&self, p: &Prepared, frequencies: &[f64], out: &mut [f64]) {
+        assert_eq!(frequencies.len(), out.len(), "one result per frequency");
+        #[cfg(target_arch = "x86_64")]
+        if self.wide {
+            // SAFETY: `wide` is set only when the running processor reports
+            // AVX2 (see `wide_vectors_available`).
+            unsafe { conversions_squared_avx2(p, frequencies, out) };
+            return;
+        }
+        each_block(p, frequencies, out);
     }
 }
 
-fn pin_load(pins: &[(f64, f64); 2], omega: f64) -> [[C64; 2]; 2] {
-    [
-        [C64::new(pins[0].0, omega * pins[0].1), ZERO],
-        [ZERO, C64::new(pins[1].0, omega * pins[1].1)],
-    ]
+/// Whether this processor can run the 256-bit build of the kernel.
+fn wide_vectors_available() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
+/// The kernel compiled for 256-bit vectors.
+///
+/// # Safety
+/// The processor must support AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+#[allow(unsafe_code)]
+unsafe fn conversions_squared_avx2(p: &Prepared, frequencies: &[f64], out: &mut [f64]) {
+    each_block(p, frequencies, out);
+}
+
+/// The kernel over `frequencies` in blocks of [`LANES`]; a short last block
+/// repeats its last frequency in the unused lanes.
+#[inline(always)]
+fn each_block(p: &Prepared, frequencies: &[f64], out: &mut [f64]) {
+    let mut f_blocks = frequencies.chunks_exact(LANES);
+    let mut out_blocks = out.chunks_exact_mut(LANES);
+    for (f_block, out_block) in (&mut f_blocks).zip(&mut out_blocks) {
+        let lanes: [f64; LANES] = f_block.try_into().expect("a whole block");
+        let result = conversion_squared(p, Reals(lanes));
+        out_block.copy_from_slice(&result.0);
+    }
+    let (f_rest, out_rest) = (f_blocks.remainder(), out_blocks.into_remainder());
+    if let Some(&last) = f_rest.last() {
+        let mut lanes = [last; LANES];
+        for (lane, &f) in lanes.iter_mut().zip(f_rest) {
+            *lane = f;
+        }
+        let result = conversion_squared(p, Reals(lanes));
+        for (slot, value) in out_rest.iter_mut().zip(result.0) {
+            *slot = value;
+        }
+    }
+}
+
+/// |ε|² at the frequencies `f` (Hz).
+#[inline(always)]
+fn conversion_squared(p: &Prepared, f: Reals) -> Reals {
+    let omega = f * (2.0 * std::f64::consts::PI);
+    let loaded = amplifier(&p.amplifier, f, omega);
+    let (cm, dm) = if p.has_source {
+        source_pins(p, omega, &loaded)
+    } else {
+        let half = Complexes::real(0.5);
+        ([ONE, ONE], [half, -half])
+    };
+    let row = &loaded.row;
+    let out_cm = row[0] * cm[0] + row[1] * cm[1];
+    let out_dm = row[0] * dm[0] + row[1] * dm[1];
+    out_cm.norm_sqr() / out_dm.norm_sqr()
+}
+
+/// The amplifier's output row and input admittance at `f` (Hz).
+#[inline(always)]
+fn amplifier(values: &AmplifierValues, f: Reals, omega: Reals) -> Loaded {
+    match values {
+        AmplifierValues::Difference(d) => {
+            // Output = (m̃_p v_p + m̃_n v_n)/s; the inverting pin's current
+            // (v_n − output)/(R1 + R2), times s, is (−m̃_p v_p + (s − m̃_n) v_n)/(R1 + R2).
+            let gains = d.gains(f);
+            Loaded {
+                row: [gains.p, gains.n],
+                admittance: [
+                    [Complexes::real(d.p_conductance), ZERO],
+                    [
+                        -(gains.p * d.feedback),
+                        (gains.scale - gains.n) * d.feedback,
+                    ],
+                ],
+                scale: [None, Some(gains.scale)],
+            }
+        }
+        AmplifierValues::ThreeOpAmp {
+            pins,
+            first,
+            g_gain,
+            g_feedback,
+            difference,
+        } => {
+            // Each first-stage op-amp: D_i y_i = P_i v_i − a_i o_i, with
+            // D = 1 − c/2, P = 1 + c/2, a = 1/A, y the inverting input. The
+            // two inverting-input KCLs, multiplied through by D_1 D_2:
+            // M o = B v. Then output ∝ (m̃_p, m̃_n) · adj(M) · B · v.
+            let g_g = *g_gain;
+            let [g1, g2] = *g_feedback;
+            let (a1, c1) = first[0].at(f);
+            let (a2, c2) = first[1].at(f);
+            let (d1, p1) = (ONE - c1 * 0.5, ONE + c1 * 0.5);
+            let (d2, p2) = (ONE - c2 * 0.5, ONE + c2 * 0.5);
+            let d12 = d1 * d2;
+            let m = [
+                [-(a1 * d2 * (g1 + g_g)) - d12 * g1, a2 * d1 * g_g],
+                [a1 * d2 * g_g, -(a2 * d1 * (g2 + g_g)) - d12 * g2],
+            ];
+            let (p1d2, p2d1) = (p1 * d2, p2 * d1);
+            let b = [
+                [-(p1d2 * (g1 + g_g)), p2d1 * g_g],
+                [p1d2 * g_g, -(p2d1 * (g2 + g_g))],
+            ];
+            let gains = difference.gains(f);
+            // (m̃_p, m̃_n) · adj(M).
+            let t = [
+                gains.p * m[1][1] - gains.n * m[1][0],
+                gains.n * m[0][0] - gains.p * m[0][1],
+            ];
+            Loaded {
+                row: [
+                    t[0] * b[0][0] + t[1] * b[1][0],
+                    t[0] * b[0][1] + t[1] * b[1][1],
+                ],
+                admittance: pin_admittance(pins, omega),
+                scale: [None, None],
+            }
+        }
+        AmplifierValues::Block {
+            pins,
+            c0,
+            c0_per_corner,
+        } => {
+            let half_c = Complexes::with_imaginary(*c0, f * *c0_per_corner) * 0.5;
+            Loaded {
+                row: [ONE + half_c, -(ONE - half_c)],
+                admittance: pin_admittance(pins, omega),
+                scale: [None, None],
+            }
+        }
+    }
+}
+
+fn pin_admittance(pins: &[PinValues; 2], omega: Reals) -> [[Complexes; 2]; 2] {
+    let shunt =
+        |pin: &PinValues| Complexes::with_imaginary(pin.conductance, omega * pin.capacitance);
+    [[shunt(&pins[0]), ZERO], [ZERO, shunt(&pins[1])]]
 }
 
 /// The source network's pin voltages for a common-mode and a differential
-/// excitation, loaded by `load`: each leg's cable node eliminated, leaving
-/// a 2×2 in the pins.
-fn source_pins(p: &Prepared, omega: f64, load: &[[C64; 2]; 2]) -> ([C64; 2], [C64; 2]) {
-    let yd = C64::new(0.0, omega * p.differential_c);
+/// excitation, loaded by the amplifier, both times the same factor: each
+/// leg's cable node eliminated (its equation multiplied through by the
+/// node's total admittance), leaving a 2×2 in the pins solved by adjugate.
+#[inline(always)]
+fn source_pins(p: &Prepared, omega: Reals, loaded: &Loaded) -> ([Complexes; 2], [Complexes; 2]) {
+    let yd = Complexes::new(Reals::splat(0.0), omega * p.differential_c);
     let mut m = [[ZERO; 2]; 2];
     let mut drive = [ZERO; 2];
     for (i, leg) in p.legs.iter().enumerate() {
         let j = 1 - i;
-        let ys = C64::new(leg.gs, omega * leg.cs);
-        let yc = C64::new(0.0, omega * leg.cable);
+        let ys = Complexes::with_imaginary(leg.gs, omega * leg.cs);
+        let yc = Complexes::new(Reals::splat(0.0), omega * leg.cable);
         let k = yc * p.guard;
-        let shunt = C64::new(leg.shunt_g, omega * leg.shunt_c);
+        let shunt = Complexes::with_imaginary(leg.shunt_g, omega * leg.shunt_c);
+        let load = &loaded.admittance[i];
+        let scale = loaded.scale[i];
         match leg.series {
             Some(gr) => {
-                let yr = C64::new(gr, 0.0);
-                let inverse = (ys + yc + yr).inv();
-                m[i][i] = yr + shunt + yd + load[i][i] - yr * (yr + k) * inverse;
-                m[i][j] = -yd + load[i][j] - yr * k * inverse;
-                drive[i] = yr * ys * inverse;
+                // Row times S = ys + yc + yr (and the load's scale).
+                let yr = Complexes::real(gr);
+                let total = ys + yc + yr;
+                let own = (yr + shunt + yd) * total - yr * (yr + k);
+                let across = -(yd * total) - yr * k;
+                m[i][i] = scaled(own, scale) + total * load[i];
+                m[i][j] = scaled(across, scale) + total * load[j];
+                drive[i] = scaled(yr * ys, scale);
             }
             None => {
-                m[i][i] = ys + yc - k + shunt + yd + load[i][i];
-                m[i][j] = -k - yd + load[i][j];
-                drive[i] = ys;
+                m[i][i] = scaled(ys + yc - k + shunt + yd, scale) + load[i];
+                m[i][j] = scaled(-k - yd, scale) + load[j];
+                drive[i] = scaled(ys, scale);
             }
         }
     }
-    let half = C64::new(0.5, 0.0);
-    let inverse = inverse2(m);
+    let half = 0.5;
     (
-        apply2(&inverse, drive),
-        apply2(&inverse, [drive[0] * half, -drive[1] * half]),
+        adjugate_apply(&m, drive),
+        adjugate_apply(&m, [drive[0] * half, -(drive[1] * half)]),
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::budget::load_budget;
+    use crate::montecarlo::{Sampler, SplitMix64};
+
+    /// The 256-bit build and the baseline build of the kernel give the same
+    /// bits: each lane runs the same IEEE operations in the same order.
+    #[test]
+    fn wide_and_baseline_builds_agree_to_the_bit() {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("budgets");
+        let frequencies: Vec<f64> = (0..23).map(|i| 10f64.powf(i as f64 * 0.3)).collect();
+        let mut checked = 0;
+        for name in [
+            "bridge-three-opamp.yaml",
+            "load-cell-scale.yaml",
+            "bridge-integrated-inamp.yaml",
+        ] {
+            let budget = load_budget(&root.join(name)).unwrap();
+            let fast = FastChain::new(&budget).expect("a chain with a fast form");
+            let sampler = Sampler::new(&budget);
+            let mut values = budget.parameters.nominal_values();
+            let mut prepared = Prepared::default();
+            for trial in 0..50 {
+                sampler.fill(&mut values, &mut SplitMix64::for_trial(3, trial));
+                budget.parameters.resolve(&mut values, 0.0);
+                fast.prepare(&values, &mut prepared);
+                let mut baseline = vec![0.0; frequencies.len()];
+                each_block(&prepared, &frequencies, &mut baseline);
+                let mut chosen = vec![0.0; frequencies.len()];
+                fast.conversions_squared(&prepared, &frequencies, &mut chosen);
+                assert_eq!(baseline, chosen, "{name}, trial {trial}");
+                // A frequency gives the same bits alone as in a block.
+                for (index, &f) in frequencies.iter().enumerate() {
+                    assert_eq!(fast.conversion(&prepared, f), baseline[index].sqrt());
+                }
+                checked += 1;
+            }
+        }
+        assert_eq!(checked, 150);
+    }
 }

@@ -6,6 +6,7 @@ mod rng;
 pub use rng::SplitMix64;
 mod corners;
 mod fast;
+mod lanes;
 mod run;
 mod sampler;
 mod stats;
@@ -16,4 +17,4 @@ pub use run::{
     run_yield, TemperatureMode, TrialCheck, YieldError, YieldOptions, YieldRun, MAX_TRIALS,
 };
 pub use sampler::Sampler;
-pub use stats::{wilson_interval, CmrrHistogram, BIN_DB, HISTOGRAM_HIGH_DB, HISTOGRAM_LOW_DB};
+pub use stats::{wilson_interval, CmrrHistogram, BIN_DB, HISTOGRAM_LOW_DB};

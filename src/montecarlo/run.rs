@@ -2,6 +2,7 @@
 //! trial's values drawn from its own stream, every analysis frequency solved
 //! exactly, and statistics that merge the same way whatever the threads did.
 
+use super::stats::squared_of_cmrr_db;
 use super::{CmrrHistogram, FastChain, Prepared, Sampler, SplitMix64};
 use crate::engine::{chain_response, EngineError, RESOLUTION_FLOOR};
 use crate::model::Budget;
@@ -14,6 +15,11 @@ use std::sync::Mutex;
 pub const MAX_TRIALS: u64 = 100_000_000;
 /// Trials per unit of work handed to a thread.
 const CHUNK: u64 = 256;
+/// The most |ε|² values a thread holds before counting them into its
+/// histograms: trials are solved row by row into a block, then counted
+/// frequency by frequency, so that each histogram is counted into while it
+/// sits in cache.
+const BLOCK_VALUES: usize = 2 * 1024;
 
 /// Where the operating temperature sits in a run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
@@ -86,16 +92,33 @@ pub enum TrialCheck {
 }
 
 impl TrialCheck {
-    fn passes(&self, conversions: &[f64]) -> bool {
+    /// The check as a bound on |ε|² at one point: the trial passes when
+    /// |ε|² there is at most the bound.
+    fn as_squared_bound(&self) -> SquaredBound {
         match *self {
-            TrialCheck::MinimumCmrr { point, min_db } => to_db(conversions[point]) >= min_db,
+            // A CMRR beyond the resolution floor reads as infinite and so
+            // meets any minimum.
+            TrialCheck::MinimumCmrr { point, min_db } => SquaredBound {
+                point,
+                max_squared: squared_of_cmrr_db(min_db).max(RESOLUTION_FLOOR * RESOLUTION_FLOOR),
+            },
             TrialCheck::MaximumError {
                 point,
                 peak_v,
                 limit_v,
-            } => conversions[point] * peak_v <= limit_v,
+            } => SquaredBound {
+                point,
+                max_squared: (limit_v / peak_v).powi(2),
+            },
         }
     }
+}
+
+/// A requirement check as a bound on |ε|² at one analysis frequency.
+#[derive(Debug, Clone, Copy)]
+struct SquaredBound {
+    point: usize,
+    max_squared: f64,
 }
 
 /// A finished (or interrupted) run.
@@ -117,14 +140,6 @@ pub struct YieldRun {
     pub interrupted: bool,
 }
 
-fn to_db(conversion: f64) -> f64 {
-    if conversion < RESOLUTION_FLOOR {
-        f64::INFINITY
-    } else {
-        -20.0 * conversion.log10()
-    }
-}
-
 /// One thread's tallies.
 #[derive(Debug, Clone)]
 struct Tally {
@@ -144,6 +159,34 @@ impl Tally {
         }
     }
 
+    /// Count one trial's passes; `squared` holds its |ε|² per frequency.
+    fn count_checks(&mut self, squared: &[f64], bounds: &[SquaredBound]) {
+        let mut all = true;
+        for (count, bound) in self.check_passes.iter_mut().zip(bounds) {
+            if squared[bound.point] <= bound.max_squared {
+                *count += 1;
+            } else {
+                all = false;
+            }
+        }
+        if all {
+            self.all_passed += 1;
+        }
+        self.trials += 1;
+    }
+
+    /// Count a block of trials into the histograms: row r of `block` holds
+    /// trial `first + r`'s |ε|² at each frequency.
+    fn record_block(&mut self, block: &[f64], first: u64) {
+        let points = self.histograms.len();
+        if points == 0 {
+            return;
+        }
+        for (index, histogram) in self.histograms.iter_mut().enumerate() {
+            histogram.record_run(block[index..].iter().step_by(points).copied(), first);
+        }
+    }
+
     fn merge(&mut self, other: &Tally) {
         for (mine, theirs) in self.histograms.iter_mut().zip(&other.histograms) {
             mine.merge(theirs);
@@ -153,6 +196,68 @@ impl Tally {
         }
         self.all_passed += other.all_passed;
         self.trials += other.trials;
+    }
+}
+
+/// What every trial shares: the budget, how to draw its values and how to
+/// solve them.
+struct TrialSolver<'a> {
+    budget: &'a Budget,
+    sampler: Sampler,
+    fast: Option<FastChain>,
+    frequencies: &'a [f64],
+    options: YieldOptions,
+}
+
+/// One thread's scratch space for solving trials.
+struct Workspace {
+    values: Vec<f64>,
+    prepared: Prepared,
+}
+
+impl Workspace {
+    fn new(budget: &Budget) -> Workspace {
+        Workspace {
+            values: budget.parameters.nominal_values(),
+            prepared: Prepared::default(),
+        }
+    }
+}
+
+impl TrialSolver<'_> {
+    /// Draw trial `trial`'s values and solve |ε|² at every frequency into
+    /// `squared`.
+    fn solve(
+        &self,
+        trial: u64,
+        workspace: &mut Workspace,
+        squared: &mut [f64],
+    ) -> Result<(), EngineError> {
+        let values = &mut workspace.values;
+        let mut rng = SplitMix64::for_trial(self.options.seed, trial);
+        self.sampler.fill(values, &mut rng);
+        let delta_t = match (self.options.temperature, self.budget.temperature) {
+            (TemperatureMode::Drawn, Some(r)) => {
+                r.low_k + (r.high_k - r.low_k) * rng.next_f64() - r.reference_k
+            }
+            (TemperatureMode::Cold, Some(r)) => r.low_k - r.reference_k,
+            (TemperatureMode::Hot, Some(r)) => r.high_k - r.reference_k,
+            _ => 0.0,
+        };
+        self.budget.parameters.resolve(values, delta_t);
+        match &self.fast {
+            Some(fast) => {
+                fast.prepare(values, &mut workspace.prepared);
+                fast.conversions_squared(&workspace.prepared, self.frequencies, squared);
+            }
+            None => {
+                for (slot, &freq) in squared.iter_mut().zip(self.frequencies) {
+                    let response = chain_response(&self.budget.chain, &Point::new(freq, values))?;
+                    *slot = response.conversion().norm_sqr();
+                }
+            }
+        }
+        Ok(())
     }
 }
 
@@ -172,15 +277,21 @@ pub fn run_yield(
             trials: options.trials,
         });
     }
-    let range = budget.temperature;
-    if options.temperature != TemperatureMode::Reference && range.is_none() {
+    if options.temperature != TemperatureMode::Reference && budget.temperature.is_none() {
         return Err(YieldError::NoTemperatureRange);
     }
-    let sampler = Sampler::new(budget);
-    // The closed-form evaluator where the chain has one; the general engine
-    // otherwise. Both solve the same equations (tested against each other).
-    let fast = FastChain::new(budget);
-    let nominal = budget.parameters.nominal_values();
+    let solver = TrialSolver {
+        budget,
+        sampler: Sampler::new(budget),
+        // The closed-form evaluator where the chain has one; the general
+        // engine otherwise. Both solve the same equations (tested against
+        // each other).
+        fast: FastChain::new(budget),
+        frequencies,
+        options,
+    };
+    let bounds: Vec<SquaredBound> = checks.iter().map(TrialCheck::as_squared_bound).collect();
+    let rows_per_block = (BLOCK_VALUES / frequencies.len().max(1)).clamp(1, CHUNK as usize);
     let chunks = options.trials.div_ceil(CHUNK);
     let next_chunk = AtomicU64::new(0);
     let finished = AtomicU64::new(0);
@@ -190,9 +301,8 @@ pub fn run_yield(
         .into_par_iter()
         .map(|_| {
             let mut tally = Tally::new(frequencies.len(), checks.len());
-            let mut values = nominal.clone();
-            let mut conversions = vec![0.0; frequencies.len()];
-            let mut prepared = Prepared::default();
+            let mut workspace = Workspace::new(budget);
+            let mut block = vec![0.0; rows_per_block * frequencies.len()];
             loop {
                 if stop.load(Ordering::Relaxed) {
                     break;
@@ -203,52 +313,25 @@ pub fn run_yield(
                 }
                 let first = chunk * CHUNK;
                 let last = (first + CHUNK).min(options.trials);
-                for trial in first..last {
-                    let mut rng = SplitMix64::for_trial(options.seed, trial);
-                    sampler.fill(&mut values, &mut rng);
-                    let delta_t = match (options.temperature, range) {
-                        (TemperatureMode::Drawn, Some(r)) => {
-                            r.low_k + (r.high_k - r.low_k) * rng.next_f64() - r.reference_k
+                let mut start = first;
+                while start < last {
+                    let rows = (last - start).min(rows_per_block as u64) as usize;
+                    let width = frequencies.len();
+                    for r in 0..rows {
+                        let trial = start + r as u64;
+                        let row = &mut block[r * width..(r + 1) * width];
+                        if let Err(error) = solver.solve(trial, &mut workspace, row) {
+                            failure
+                                .lock()
+                                .expect("no thread panics holding it")
+                                .get_or_insert(YieldError::Engine { trial, error });
+                            stop.store(true, Ordering::Relaxed);
+                            return tally;
                         }
-                        (TemperatureMode::Cold, Some(r)) => r.low_k - r.reference_k,
-                        (TemperatureMode::Hot, Some(r)) => r.high_k - r.reference_k,
-                        _ => 0.0,
-                    };
-                    budget.parameters.resolve(&mut values, delta_t);
-                    if let Some(fast) = &fast {
-                        fast.prepare(&values, &mut prepared);
+                        tally.count_checks(row, &bounds);
                     }
-                    for (index, &freq) in frequencies.iter().enumerate() {
-                        let conversion = match &fast {
-                            Some(fast) => fast.conversion(&prepared, freq),
-                            None => match chain_response(&budget.chain, &Point::new(freq, &values))
-                            {
-                                Ok(response) => response.conversion().norm(),
-                                Err(error) => {
-                                    failure
-                                        .lock()
-                                        .expect("no thread panics holding it")
-                                        .get_or_insert(YieldError::Engine { trial, error });
-                                    stop.store(true, Ordering::Relaxed);
-                                    return tally;
-                                }
-                            },
-                        };
-                        conversions[index] = conversion;
-                        tally.histograms[index].record(to_db(conversion), trial);
-                    }
-                    let mut all = true;
-                    for (count, check) in tally.check_passes.iter_mut().zip(checks) {
-                        if check.passes(&conversions) {
-                            *count += 1;
-                        } else {
-                            all = false;
-                        }
-                    }
-                    if all {
-                        tally.all_passed += 1;
-                    }
-                    tally.trials += 1;
+                    tally.record_block(&block[..rows * width], start);
+                    start += rows as u64;
                 }
                 let done = finished.fetch_add(last - first, Ordering::Relaxed) + (last - first);
                 progress(done);
