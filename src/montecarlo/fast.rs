@@ -176,10 +176,11 @@ pub struct Prepared {
 
 /// The amplifier seen from the source: output ∝ `row` · pin voltages, and
 /// the current it draws from pin i, times `scale[i]` (when given), is
-/// `admittance[i]` · pin voltages.
+/// `own[i]` × pin i's voltage + `across[i]` (when given) × the other's.
 struct Loaded {
     row: [Complexes; 2],
-    admittance: [[Complexes; 2]; 2],
+    own: [Complexes; 2],
+    across: [Option<Complexes>; 2],
     scale: [Option<Complexes>; 2],
 }
 
@@ -190,15 +191,6 @@ fn scaled(value: Complexes, scale: Option<Complexes>) -> Complexes {
         Some(s) => value * s,
         None => value,
     }
-}
-
-/// The adjugate of a 2×2 applied to a vector: M⁻¹·v times det M.
-#[inline(always)]
-fn adjugate_apply(m: &[[Complexes; 2]; 2], v: [Complexes; 2]) -> [Complexes; 2] {
-    [
-        m[1][1] * v[0] - m[0][1] * v[1],
-        m[0][0] * v[1] - m[1][0] * v[0],
-    ]
 }
 
 fn optional(id: Option<ParamId>, v: &[f64]) -> f64 {
@@ -364,15 +356,22 @@ fn each_block(p: &Prepared, frequencies: &[f64], out: &mut [f64]) {
 fn conversion_squared(p: &Prepared, f: Reals) -> Reals {
     let omega = f * (2.0 * std::f64::consts::PI);
     let loaded = amplifier(&p.amplifier, f, omega);
-    let (cm, dm) = if p.has_source {
-        source_pins(p, omega, &loaded)
+    let [r0, r1] = loaded.row;
+    // The output is a + b for a common-mode excitation and (a − b)/2 for a
+    // differential one, both times the same factor. Driven through the
+    // source network, M v = drive for common mode and M v = (drive_0,
+    // −drive_1)/2 for differential, so with w = row · adj(M) the two parts
+    // are w_0 drive_0 and w_1 drive_1.
+    let (a, b) = if p.has_source {
+        let (m, drive) = source_system(p, omega, &loaded);
+        let w0 = r0 * m[1][1] - r1 * m[1][0];
+        let w1 = r1 * m[0][0] - r0 * m[0][1];
+        (w0 * drive[0], w1 * drive[1])
     } else {
-        let half = Complexes::real(0.5);
-        ([ONE, ONE], [half, -half])
+        (r0, r1)
     };
-    let row = &loaded.row;
-    let out_cm = row[0] * cm[0] + row[1] * cm[1];
-    let out_dm = row[0] * dm[0] + row[1] * dm[1];
+    let out_cm = a + b;
+    let out_dm = (a - b) * 0.5;
     out_cm.norm_sqr() / out_dm.norm_sqr()
 }
 
@@ -386,13 +385,11 @@ fn amplifier(values: &AmplifierValues, f: Reals, omega: Reals) -> Loaded {
             let gains = d.gains(f);
             Loaded {
                 row: [gains.p, gains.n],
-                admittance: [
-                    [Complexes::real(d.p_conductance), ZERO],
-                    [
-                        -(gains.p * d.feedback),
-                        (gains.scale - gains.n) * d.feedback,
-                    ],
+                own: [
+                    Complexes::real(d.p_conductance),
+                    (gains.scale - gains.n) * d.feedback,
                 ],
+                across: [None, Some(-(gains.p * d.feedback))],
                 scale: [None, Some(gains.scale)],
             }
         }
@@ -434,7 +431,8 @@ fn amplifier(values: &AmplifierValues, f: Reals, omega: Reals) -> Loaded {
                     t[0] * b[0][0] + t[1] * b[1][0],
                     t[0] * b[0][1] + t[1] * b[1][1],
                 ],
-                admittance: pin_admittance(pins, omega),
+                own: pin_admittance(pins, omega),
+                across: [None, None],
                 scale: [None, None],
             }
         }
@@ -446,59 +444,66 @@ fn amplifier(values: &AmplifierValues, f: Reals, omega: Reals) -> Loaded {
             let half_c = Complexes::with_imaginary(*c0, f * *c0_per_corner) * 0.5;
             Loaded {
                 row: [ONE + half_c, -(ONE - half_c)],
-                admittance: pin_admittance(pins, omega),
+                own: pin_admittance(pins, omega),
+                across: [None, None],
                 scale: [None, None],
             }
         }
     }
 }
 
-fn pin_admittance(pins: &[PinValues; 2], omega: Reals) -> [[Complexes; 2]; 2] {
-    let shunt =
-        |pin: &PinValues| Complexes::with_imaginary(pin.conductance, omega * pin.capacitance);
-    [[shunt(&pins[0]), ZERO], [ZERO, shunt(&pins[1])]]
+/// Each pin's shunt admittance to ground.
+#[inline(always)]
+fn pin_admittance(pins: &[PinValues; 2], omega: Reals) -> [Complexes; 2] {
+    pins.map(|pin| Complexes::with_imaginary(pin.conductance, omega * pin.capacitance))
 }
 
-/// The source network's pin voltages for a common-mode and a differential
-/// excitation, loaded by the amplifier, both times the same factor: each
-/// leg's cable node eliminated (its equation multiplied through by the
-/// node's total admittance), leaving a 2×2 in the pins solved by adjugate.
+/// The source network's nodal equations in the two pins, loaded by the
+/// amplifier, M v = drive for a common-mode excitation: each leg's cable
+/// node eliminated, its row multiplied through by the node's total
+/// admittance (and by the load's scale) so nothing is divided.
 #[inline(always)]
-fn source_pins(p: &Prepared, omega: Reals, loaded: &Loaded) -> ([Complexes; 2], [Complexes; 2]) {
-    let yd = Complexes::new(Reals::splat(0.0), omega * p.differential_c);
+fn source_system(
+    p: &Prepared,
+    omega: Reals,
+    loaded: &Loaded,
+) -> ([[Complexes; 2]; 2], [Complexes; 2]) {
+    let yd = omega * p.differential_c;
     let mut m = [[ZERO; 2]; 2];
     let mut drive = [ZERO; 2];
     for (i, leg) in p.legs.iter().enumerate() {
         let j = 1 - i;
         let ys = Complexes::with_imaginary(leg.gs, omega * leg.cs);
-        let yc = Complexes::new(Reals::splat(0.0), omega * leg.cable);
+        let yc = omega * leg.cable;
         let k = yc * p.guard;
         let shunt = Complexes::with_imaginary(leg.shunt_g, omega * leg.shunt_c);
-        let load = &loaded.admittance[i];
         let scale = loaded.scale[i];
         match leg.series {
             Some(gr) => {
                 // Row times S = ys + yc + yr (and the load's scale).
-                let yr = Complexes::real(gr);
-                let total = ys + yc + yr;
-                let own = (yr + shunt + yd) * total - yr * (yr + k);
-                let across = -(yd * total) - yr * k;
-                m[i][i] = scaled(own, scale) + total * load[i];
-                m[i][j] = scaled(across, scale) + total * load[j];
-                drive[i] = scaled(yr * ys, scale);
+                let total = Complexes::new(ys.re + Reals::splat(gr), ys.im + yc);
+                let own = (shunt + Complexes::new(Reals::splat(gr), yd)) * total
+                    - Complexes::new(Reals::splat(gr * gr), k * gr);
+                let across = -total.times_imaginary(yd) - Complexes::new(Reals::splat(0.0), k * gr);
+                m[i][i] = scaled(own, scale) + total * loaded.own[i];
+                m[i][j] = scaled(across, scale);
+                if let Some(load) = loaded.across[i] {
+                    m[i][j] = m[i][j] + total * load;
+                }
+                drive[i] = scaled(ys * gr, scale);
             }
             None => {
-                m[i][i] = scaled(ys + yc - k + shunt + yd, scale) + load[i];
-                m[i][j] = scaled(-k - yd, scale) + load[j];
+                let own = Complexes::new(ys.re + shunt.re, ys.im + yc - k + yd + shunt.im);
+                m[i][i] = scaled(own, scale) + loaded.own[i];
+                m[i][j] = scaled(Complexes::new(Reals::splat(0.0), (k + yd) * -1.0), scale);
+                if let Some(load) = loaded.across[i] {
+                    m[i][j] = m[i][j] + load;
+                }
                 drive[i] = scaled(ys, scale);
             }
         }
     }
-    let half = 0.5;
-    (
-        adjugate_apply(&m, drive),
-        adjugate_apply(&m, [drive[0] * half, -(drive[1] * half)]),
-    )
+    (m, drive)
 }
 
 #[cfg(test)]

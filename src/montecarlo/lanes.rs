@@ -64,6 +64,18 @@ impl Div for Reals {
     }
 }
 
+impl Neg for Reals {
+    type Output = Reals;
+    #[inline(always)]
+    fn neg(self) -> Reals {
+        let mut out = self.0;
+        for value in &mut out {
+            *value = -*value;
+        }
+        Reals(out)
+    }
+}
+
 impl Mul<f64> for Reals {
     type Output = Reals;
     #[inline(always)]
@@ -112,6 +124,12 @@ impl Complexes {
         Complexes::new(Reals::splat(real), imaginary)
     }
 
+    /// z × j·`imaginary` per lane.
+    #[inline(always)]
+    pub fn times_imaginary(self, imaginary: Reals) -> Complexes {
+        Complexes::new(-(self.im * imaginary), self.re * imaginary)
+    }
+
     /// |z|² per lane.
     #[inline(always)]
     pub fn norm_sqr(self) -> Reals {
@@ -158,7 +176,7 @@ impl Neg for Complexes {
     type Output = Complexes;
     #[inline(always)]
     fn neg(self) -> Complexes {
-        Complexes::new(self.re * -1.0, self.im * -1.0)
+        Complexes::new(-self.re, -self.im)
     }
 }
 
