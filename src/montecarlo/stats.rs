@@ -299,7 +299,19 @@ pub fn wilson_interval(passed: u64, trials: u64, z: f64) -> (f64, f64) {
     let z2 = z * z;
     let centre = (p + z2 / (2.0 * n)) / (1.0 + z2 / n);
     let half = z * ((p * (1.0 - p) / n + z2 / (4.0 * n * n)).sqrt()) / (1.0 + z2 / n);
-    ((centre - half).max(0.0), (centre + half).min(1.0))
+    // With none or all passing, the bound on that side is exactly 0 or 1;
+    // rounding would leave it a hair inside.
+    let low = if passed == 0 {
+        0.0
+    } else {
+        (centre - half).max(0.0)
+    };
+    let high = if passed == trials {
+        1.0
+    } else {
+        (centre + half).min(1.0)
+    };
+    (low, high)
 }
 
 #[cfg(test)]
@@ -386,6 +398,8 @@ mod tests {
             "{low} {high}"
         );
         let (low, high) = wilson_interval(100, 100, 1.96);
-        assert!(high > 0.999_999 && low > 0.96, "{low} {high}");
+        assert!(high == 1.0 && low > 0.96, "{low} {high}");
+        let (low, high) = wilson_interval(0, 100, 1.96);
+        assert!(low == 0.0 && high < 0.04, "{low} {high}");
     }
 }

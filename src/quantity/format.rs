@@ -70,6 +70,23 @@ pub fn format_db(db: f64) -> String {
     }
 }
 
+/// Format a share of units (a yield) as a percentage with two decimals, or
+/// more where two would round a share short of all to `100.00 %` or a
+/// share above none to `0.00 %`: `99.996 %`, never a false `100.00 %`.
+pub fn format_share(fraction: f64) -> String {
+    let percent = fraction * 100.0;
+    let mut text = format!("{percent:.2}");
+    for decimals in 3..=7 {
+        let shown: f64 = text.parse().unwrap_or(percent);
+        let misleading = (fraction < 1.0 && shown >= 100.0) || (fraction > 0.0 && shown <= 0.0);
+        if !misleading {
+            break;
+        }
+        text = format!("{percent:.decimals$}");
+    }
+    format!("{text} %")
+}
+
 /// Format a fraction as a percentage when it is at least 0.01 %, otherwise
 /// in ppm: `0.1 %`, `25 ppm`.
 pub fn format_fraction(fraction: f64) -> String {
@@ -106,6 +123,16 @@ fn trim_number(value: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn shares_never_round_to_all_or_none() {
+        assert_eq!(format_share(1.0), "100.00 %");
+        assert_eq!(format_share(0.0), "0.00 %");
+        assert_eq!(format_share(0.64), "64.00 %");
+        assert_eq!(format_share(0.99996), "99.996 %");
+        assert_eq!(format_share(0.9999996), "99.99996 %");
+        assert_eq!(format_share(3e-7), "0.00003 %");
+    }
 
     #[test]
     fn picks_the_prefix() {

@@ -2,7 +2,7 @@
 
 use super::SCHEMA_VERSION;
 use crate::design::{AllocationTable, Sensitivity, Sizing};
-use crate::quantity::{format_db, format_si};
+use crate::quantity::{format_db, format_share, format_si};
 use serde::Serialize;
 use tabled::builder::Builder;
 use tabled::settings::object::Columns;
@@ -51,8 +51,7 @@ pub fn render_sizing_table(report: &SizingReport) -> String {
                 "no".into()
             },
             step.margin_db.map_or("—".into(), format_db),
-            step.yield_fraction
-                .map_or("—".into(), |y| format!("{:.2} %", y * 100.0)),
+            step.yield_fraction.map_or("—".into(), format_share),
         ]);
     }
     out.push_str(&styled(table, 2));

@@ -9,7 +9,7 @@ use crate::montecarlo::{
     run_yield, wilson_interval, worst_corner, TemperatureMode, TrialCheck, YieldError,
     YieldOptions, YieldRun,
 };
-use crate::quantity::{format_db, format_si, AmplitudeForm, SpreadShape};
+use crate::quantity::{format_db, format_share, format_si, AmplitudeForm, SpreadShape};
 use serde::Serialize;
 use std::sync::atomic::AtomicBool;
 use tabled::builder::Builder;
@@ -390,11 +390,13 @@ pub fn build_yield_report(
 }
 
 fn percent(figure: &YieldFigure) -> String {
+    let low = format_share(figure.ci_low);
+    let high = format_share(figure.ci_high);
     format!(
-        "{:.2} % (95 %: {:.2} to {:.2} %)",
-        figure.fraction * 100.0,
-        figure.ci_low * 100.0,
-        figure.ci_high * 100.0
+        "{} (95 %: {} to {})",
+        format_share(figure.fraction),
+        low.trim_end_matches(" %"),
+        high
     )
 }
 
