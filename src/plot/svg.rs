@@ -333,7 +333,7 @@ pub fn plot_histogram(
             .margin(16)
             .x_label_area_size(46)
             .y_label_area_size(72)
-            .build_cartesian_2d(low..high, 0.0..tallest * 1.12)
+            .build_cartesian_2d(low..high, 0.0..tallest * 1.2)
             .map_err(failed)?;
         chart
             .configure_mesh()
@@ -361,7 +361,7 @@ pub fn plot_histogram(
         if let Some(required) = required_db {
             chart
                 .draw_series(DashedLineSeries::new(
-                    vec![(required, 0.0), (required, tallest * 1.12)],
+                    vec![(required, 0.0), (required, tallest * 1.2)],
                     4,
                     4,
                     TOTALS[0].stroke_width(2),
@@ -372,17 +372,27 @@ pub fn plot_histogram(
                     PathElement::new(vec![(x, y), (x + 22, y)], TOTALS[0].stroke_width(2))
                 });
         }
+        // A label closer to the one before than a label's width goes up a
+        // row, so neighbouring percentiles stay legible.
+        let label_room = (high - low) * 0.06;
+        let mut previous: Option<(f64, usize)> = None;
         for (name, db) in percentiles.iter().filter(|(_, db)| db.is_finite()) {
+            let row = match previous {
+                Some((x, row)) if db - x < label_room => (row + 1) % 2,
+                _ => 0,
+            };
+            previous = Some((*db, row));
+            let lift = row as f64 * 0.07;
             chart
                 .draw_series(std::iter::once(PathElement::new(
-                    vec![(*db, tallest * 1.02), (*db, tallest * 1.08)],
+                    vec![(*db, tallest * 1.02), (*db, tallest * (1.08 + lift))],
                     INK.stroke_width(2),
                 )))
                 .map_err(failed)?;
             chart
                 .draw_series(std::iter::once(Text::new(
                     name.to_string(),
-                    (*db, tallest * 1.10),
+                    (*db, tallest * (1.10 + lift)),
                     (FONT, LABEL_SIZE - 3).into_font().color(&INK),
                 )))
                 .map_err(failed)?;
