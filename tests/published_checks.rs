@@ -599,3 +599,45 @@ fn converter_cmrr_referred_through_the_gain_ahead() {
     let expected = 1e-4 * (response.cc / response.dd).norm();
     assert_relative_eq!(adc.magnitude(), expected, max_relative = 1e-6);
 }
+
+/// A pair's collectors sit at the supply less I_C R_C only when nothing
+/// loads them. Feeding a unity difference amplifier, Q2's collector (the
+/// amplifier's p pin) sees R3 + R4 to ground, so by Thevenin
+/// V_C2 = (V_S/R_C − I_C)/(1/R_C + 1/(R3 + R4)); Q1's (the n pin) sees the
+/// amplifier's inverting-input current (2 V_C1 − V_C2)/(R1 + R2) of an
+/// ideal op-amp, so V_C1 = (V_S/R_C − I_C + V_C2/(R1 + R2))/(1/R_C +
+/// 2/(R1 + R2)). The collector-emitter check uses these levels, and the
+/// amplifier's op-amp input sits at V_C2 R4/(R3 + R4). (Thevenin's theorem
+/// and the ideal op-amp's virtual short: common practice, no source; r_o
+/// made infinite so the collectors act as current sources.)
+#[test]
+fn headroom_carries_a_pair_s_loaded_collector_levels_downstream() {
+    use cmrr_budget::engine::check_headroom;
+    let chain = "  - differential_pair:\n      label: pair\n      device: bjt\n      tail_current: 1 mA\n      beta: 100\n      early_voltage: 1e12 V\n      load_resistance: 10k\n      output: differential\n      supply: 12 V\n      input_drop: 650 mV\n      saturation: 20 V\n      tail: {resistor: 10k}\n  - difference_amp:\n      label: amplifier\n      r1: 10k\n      r2: 10k\n      r3: 10k\n      r4: 10k\n      opamp: {open_loop_gain: 240 dB, gain_bandwidth: 1 GHz, input_range: [-1 V, 1 V]}\n";
+    let b = budget(chain);
+    let findings = check_headroom(&b).unwrap();
+    let centre = |node: &str| {
+        let f = findings
+            .iter()
+            .find(|f| f.node == node)
+            .unwrap_or_else(|| panic!("no finding for {node}: {findings:?}"));
+        (f.low_v + f.high_v) / 2.0
+    };
+    let (vs, rc, r) = (12.0, 10e3, 20e3);
+    let ic = 0.5e-3 * 100.0 / 101.0;
+    let vc2 = (vs / rc - ic) / (1.0 / rc + 1.0 / r);
+    let vc1 = (vs / rc - ic + vc2 / r) / (1.0 / rc + 2.0 / r);
+    assert_relative_eq!(
+        centre("Q2 collector-emitter"),
+        vc2 + 0.65,
+        max_relative = 1e-6
+    );
+    assert_relative_eq!(
+        centre("Q1 collector-emitter"),
+        vc1 + 0.65,
+        max_relative = 1e-6
+    );
+    assert_relative_eq!(centre("op-amp inputs"), vc2 / 2.0, max_relative = 1e-6);
+    // Unloaded, the collectors would sit 2.3 V higher.
+    assert!(vs - ic * rc - vc2 > 2.2);
+}

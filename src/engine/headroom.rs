@@ -4,7 +4,9 @@
 //! Each stage names its probed nodes ([`Probe`]) as linear functions of its
 //! input pins. Carried back through the stages before it, a probe becomes a
 //! response to the sensor's (vdm, vcm). At nominal values, a node's extremes
-//! are its bias, plus the DC common modes (as written, positive), plus the
+//! are its bias, plus the DC level the stages before it set at its stage's
+//! inputs (a pair's collectors, carried on at DC), plus the DC common modes
+//! (as written, positive), plus the
 //! peaks of every alternating source at its own frequency, plus the
 //! full-scale differential input either way. Adding the peaks is the worst
 //! case: sources at different frequencies line up at some instant.
@@ -43,6 +45,8 @@ struct Response {
 struct ProbeResponse {
     name: String,
     bias: f64,
+    /// Per volt at the stage's own input pins.
+    coefficients: [C64; 2],
     low: f64,
     high: f64,
     response: Response,
@@ -74,6 +78,7 @@ fn probe_responses(
             stage_probes.push(ProbeResponse {
                 name: probe.name,
                 bias: probe.bias,
+                coefficients: probe.coefficients,
                 low: probe.low,
                 high: probe.high,
                 response,
@@ -85,10 +90,31 @@ fn probe_responses(
     Ok(all)
 }
 
+/// The DC level at each stage's input pins that the stages before it set
+/// by themselves (a pair's collectors): each stage's own output levels,
+/// carried on through the stages after it at DC.
+fn input_levels(budget: &Budget, values: &[f64]) -> Result<Vec<[f64; 2]>, EngineError> {
+    let point = Point::new(0.0, values);
+    let loads = stage_loads(&budget.chain, &point)?;
+    let mut level = [0.0; 2];
+    let mut levels = Vec::new();
+    for (stage, load) in budget.chain.iter().zip(&loads) {
+        levels.push(level);
+        let carried = stage
+            .kind
+            .transfer(&point, load)?
+            .apply([C64::new(level[0], 0.0), C64::new(level[1], 0.0)]);
+        let own = stage.kind.output_levels(&point, load);
+        level = [carried[0].re + own[0], carried[1].re + own[1]];
+    }
+    Ok(levels)
+}
+
 /// Check every probed node of the chain at nominal values.
 pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineError> {
     let values = budget.parameters.nominal_values();
     let at_dc = probe_responses(budget, &values, 0.0)?;
+    let levels = input_levels(budget, &values)?;
     let mut ac: Vec<(f64, Vec<Vec<ProbeResponse>>)> = Vec::new();
     for source in budget.interference.iter().filter(|s| s.frequency_hz > 0.0) {
         ac.push((
@@ -111,7 +137,9 @@ pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineErr
     for (stage_index, stage_probes) in at_dc.iter().enumerate() {
         for (probe_index, probe) in stage_probes.iter().enumerate() {
             let dc = probe.response;
-            let centre = probe.bias + (dc.common * dc_common).re;
+            let [a, b] = probe.coefficients;
+            let [level_p, level_n] = levels[stage_index];
+            let centre = probe.bias + (a * level_p + b * level_n).re + (dc.common * dc_common).re;
             let swing: f64 = ac
                 .iter()
                 .map(|(peak, responses)| {

@@ -158,6 +158,23 @@ pub struct PairHeadroom {
     pub saturation: f64,
 }
 
+/// What drives the pair's nodal system.
+#[derive(Debug, Clone, Copy)]
+enum Drive {
+    /// A unit voltage at each input in turn (the two right-hand sides).
+    Inputs,
+    /// The inputs at rest and the load drawing current at these output
+    /// levels, in volts (one right-hand side).
+    LoadAtLevels([f64; 2]),
+}
+
+/// The pair's DC node voltages, in volts.
+#[derive(Debug, Clone, Copy)]
+struct DcLevels {
+    collectors: [f64; 2],
+    emitters: [f64; 2],
+}
+
 /// The pair's node voltages per unit of each input, `[from v_p, from v_n]`.
 struct PairNodes {
     /// c1, c2.
@@ -305,6 +322,17 @@ impl DifferentialPair {
 
     /// Solve the pair: node voltages per unit of each input.
     fn solve(&self, point: &Point, load: &Mat2) -> Result<PairNodes, SingularStage> {
+        self.solve_driven(point, load, Drive::Inputs)
+    }
+
+    /// Solve the pair's nodal system driven as `drive` says; with
+    /// [`Drive::LoadAtLevels`] the answer is in the first column.
+    fn solve_driven(
+        &self,
+        point: &Point,
+        load: &Mat2,
+        drive: Drive,
+    ) -> Result<PairNodes, SingularStage> {
         let small = self.small_signal(point);
         let collectors = [Node::At(0), Node::At(1)];
         let tail = Node::At(2);
@@ -316,6 +344,7 @@ impl DifferentialPair {
                 next += 1;
             }
         }
+        let driven_by_inputs = matches!(drive, Drive::Inputs);
         let mut system = NodalSystem::new(next);
         for side in 0..2 {
             let (c, e) = (collectors[side], emitters[side]);
@@ -332,11 +361,16 @@ impl DifferentialPair {
             system.admittance(c, e, g_o);
             // Controlled current gm (v_b − v_e) from collector to emitter.
             system.coupling(c, e, -gm);
-            system.input_term(c, side, -gm);
             system.coupling(e, e, gm);
-            system.input_term(e, side, gm);
-            // Base current (v_b − v_e)/r_π into the emitter node.
-            system.admittance_to_input(e, side, g_pi);
+            if driven_by_inputs {
+                system.input_term(c, side, -gm);
+                system.input_term(e, side, gm);
+                // Base current (v_b − v_e)/r_π into the emitter node.
+                system.admittance_to_input(e, side, g_pi);
+            } else {
+                // The base held at its DC level: r_π to AC ground.
+                system.admittance(e, Node::Ground, g_pi);
+            }
             if let Some(re) = self.degeneration[side] {
                 system.admittance(e, tail, C64::new(1.0 / point.value(re), 0.0));
             }
@@ -344,6 +378,13 @@ impl DifferentialPair {
         system.admittance(tail, Node::Ground, self.tail_admittance(point));
         let (out_p, out_n) = self.output_nodes(collectors);
         system.admittance_matrix(out_p, out_n, load);
+        if let Drive::LoadAtLevels(levels) = drive {
+            // The load draws load · (levels + v); the part at the levels is
+            // a current taken from the output nodes.
+            let drawn = load.apply([C64::new(levels[0], 0.0), C64::new(levels[1], 0.0)]);
+            system.input_term(out_p, 0, -drawn[0]);
+            system.input_term(out_n, 0, -drawn[1]);
+        }
         let solution = system.solve().ok_or(SingularStage {
             stage: "differential pair",
             freq_hz: point.freq_hz,
@@ -355,6 +396,30 @@ impl DifferentialPair {
         Ok(PairNodes {
             collectors: [at(collectors[0]), at(collectors[1])],
             emitters: [at(emitters[0]), at(emitters[1])],
+        })
+    }
+
+    /// The DC voltages of the collectors and emitters with the inputs at
+    /// 0 V and the outputs driving `load`, when the supply is stated:
+    /// unloaded, the collectors sit at the supply less I_C R_C and the
+    /// emitters one input drop below the bases; the load's pull at those
+    /// levels then moves every node as the small-signal circuit says.
+    /// Meaningful at DC (`point` at 0 Hz, `load` its DC admittance).
+    fn dc_levels(&self, point: &Point, load: &Mat2) -> Option<DcLevels> {
+        let headroom = self.headroom?;
+        let currents = self.small_signal(point).bias_current?;
+        let unloaded =
+            [0, 1].map(|side| headroom.supply - currents[side] * point.value(self.load[side]));
+        let at_outputs = match self.output {
+            PairOutput::Differential => [unloaded[1], unloaded[0]],
+            PairOutput::SingleEnded => [unloaded[1], 0.0],
+        };
+        let shift = self
+            .solve_driven(point, load, Drive::LoadAtLevels(at_outputs))
+            .ok()?;
+        Some(DcLevels {
+            collectors: [0, 1].map(|side| unloaded[side] + shift.collectors[side][0].re),
+            emitters: [0, 1].map(|side| -headroom.input_drop + shift.emitters[side][0].re),
         })
     }
 
@@ -392,9 +457,7 @@ impl StageSolve for DifferentialPair {
     }
 
     fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
-        let (Some(headroom), Some(currents)) =
-            (self.headroom, self.small_signal(point).bias_current)
-        else {
+        let (Some(headroom), Some(levels)) = (self.headroom, self.dc_levels(point, load)) else {
             return Vec::new();
         };
         let Ok(nodes) = self.solve(point, load) else {
@@ -402,21 +465,29 @@ impl StageSolve for DifferentialPair {
         };
         (0..2)
             .map(|side| {
-                // V_CE = (V_supply − I_C RC) − (V_B − V_BE) + small signal;
-                // the base's DC level arrives through the small-signal path.
-                let rc = point.value(self.load[side]);
-                let bias = headroom.supply - currents[side] * rc + headroom.input_drop;
+                // V_CE at rest, loaded; the signal adds through the
+                // small-signal path.
                 let c = nodes.collectors[side];
                 let e = nodes.emitters[side];
                 Probe {
                     name: format!("Q{} collector-emitter", side + 1),
                     coefficients: [c[0] - e[0], c[1] - e[1]],
-                    bias,
+                    bias: levels.collectors[side] - levels.emitters[side],
                     low: headroom.saturation,
                     high: f64::INFINITY,
                 }
             })
             .collect()
+    }
+
+    fn output_levels(&self, point: &Point, load: &Mat2) -> [f64; 2] {
+        let Some(levels) = self.dc_levels(point, load) else {
+            return [0.0; 2];
+        };
+        match self.output {
+            PairOutput::Differential => [levels.collectors[1], levels.collectors[0]],
+            PairOutput::SingleEnded => [levels.collectors[1], 0.0],
+        }
     }
 
     fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {

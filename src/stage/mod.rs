@@ -98,6 +98,14 @@ pub trait StageSolve {
     fn probes(&self, _point: &Point, _load: &Mat2) -> Vec<Probe> {
         Vec::new()
     }
+
+    /// The DC voltages its outputs sit at by the stage's own supplies and
+    /// bias, with its inputs at 0 V and its outputs driving `load`; read at
+    /// DC (`point` at 0 Hz). Zero for stages whose outputs rest at ground
+    /// or whose levels are not stated.
+    fn output_levels(&self, _point: &Point, _load: &Mat2) -> [f64; 2] {
+        [0.0; 2]
+    }
 }
 
 /// A node voltage to keep within limits: `bias + coefficients · [v_p, v_n]`
@@ -209,5 +217,9 @@ impl StageSolve for StageKind {
 
     fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
         self.solver().probes(point, load)
+    }
+
+    fn output_levels(&self, point: &Point, load: &Mat2) -> [f64; 2] {
+        self.solver().output_levels(point, load)
     }
 }
