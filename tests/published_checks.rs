@@ -641,3 +641,30 @@ fn headroom_carries_a_pair_s_loaded_collector_levels_downstream() {
     // Unloaded, the collectors would sit 2.3 V higher.
     assert!(vs - ic * rc - vc2 > 2.2);
 }
+
+/// A difference amplifier's reference pin, at the bottom of R4, reaches the
+/// output with the gain (R3/(R3 + R4))(1 + R2/R1) — 1 when R2/R1 = R4/R3 —
+/// and the op-amp inputs at Vref R3/(R3 + R4) (superposition with an ideal
+/// op-amp: common practice, no source). An integrated in-amp's output rests
+/// at its reference. The headroom check centres each node there.
+#[test]
+fn reference_voltage_sets_where_outputs_rest() {
+    use cmrr_budget::engine::check_headroom;
+    let opamp = "      reference_voltage: 2 V\n      opamp: {open_loop_gain: 240 dB, gain_bandwidth: 1 GHz, input_range: [-0.1 V, 0.1 V], output_swing: [-0.1 V, 0.1 V]}\n";
+    let b = budget(&difference_amp("10k", "100k", "10k", "90k", opamp));
+    let findings = check_headroom(&b).unwrap();
+    let centre = |node: &str| {
+        let f = findings.iter().find(|f| f.node == node).unwrap();
+        (f.low_v + f.high_v) / 2.0
+    };
+    assert_relative_eq!(
+        centre("op-amp output"),
+        2.0 * 0.1 * 11.0,
+        max_relative = 1e-9
+    );
+    assert_relative_eq!(centre("op-amp inputs"), 2.0 * 0.1, max_relative = 1e-9);
+    let b = budget("  - integrated_inamp: {gain: 100, cmrr: 100 dB, reference_voltage: 2.5 V, output_swing: [4.9 V, 4.95 V]}\n");
+    let findings = check_headroom(&b).unwrap();
+    let f = findings.iter().find(|f| f.node == "output").unwrap();
+    assert_relative_eq!((f.low_v + f.high_v) / 2.0, 2.5, max_relative = 1e-12);
+}

@@ -188,6 +188,8 @@ pub struct RawDifferenceAmp {
     #[serde(default)]
     pub reference_resistance: Option<Scalar>,
     #[serde(default)]
+    pub reference_voltage: Option<Scalar>,
+    #[serde(default)]
     pub opamp: Option<RawOpAmp>,
     #[serde(default)]
     pub tcr: Option<Scalar>,
@@ -243,6 +245,8 @@ pub struct RawIntegratedInAmp {
     pub input_range: Option<Vec<Scalar>>,
     #[serde(default)]
     pub output_swing: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub reference_voltage: Option<Scalar>,
     #[serde(default)]
     pub input_bias_current: Option<Scalar>,
     #[serde(default)]

@@ -40,6 +40,9 @@ pub struct DifferenceAmp {
     /// Source resistance of the reference, in series with R4 (none: an
     /// ideal reference).
     pub reference_resistance: Option<ParamId>,
+    /// The DC voltage at the reference, in volts: where the output rests
+    /// (for the headroom check; it carries no signal).
+    pub reference_voltage: f64,
     /// The op-amp.
     pub opamp: OpAmp,
 }
@@ -68,17 +71,38 @@ impl DifferenceAmp {
     /// volt at this stage's pins; `prefix` names the op-amp.
     pub(crate) fn opamp_probes(&self, point: &Point, prefix: &str) -> Vec<Probe> {
         let mut probes = Vec::new();
+        let r3 = point.value(self.r3);
+        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
         if let Some(range) = self.opamp.input_range {
-            let r3 = point.value(self.r3);
-            let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
             let k3 = C64::new(r4 / (r3 + r4), 0.0);
-            probes.push(range.probe(format!("{prefix} inputs"), [k3, ZERO], 0.0));
+            // The reference reaches the non-inverting input through the
+            // R4–R3 divider.
+            let rest = self.reference_voltage * r3 / (r3 + r4);
+            probes.push(range.probe(format!("{prefix} inputs"), [k3, ZERO], rest));
         }
         if let Some(range) = self.opamp.output_swing {
             let (m_p, m_n) = self.output_gains(point);
-            probes.push(range.probe(format!("{prefix} output"), [m_p, m_n], 0.0));
+            probes.push(range.probe(
+                format!("{prefix} output"),
+                [m_p, m_n],
+                self.output_level(point),
+            ));
         }
         probes
+    }
+
+    /// Where the output rests, in volts: the reference voltage as the
+    /// stage amplifies it from the bottom of R4, exactly as the p pin's
+    /// signal from the top of R3 but through R3/R4 instead of R4/R3.
+    pub(crate) fn output_level(&self, point: &Point) -> f64 {
+        if self.reference_voltage == 0.0 {
+            return 0.0;
+        }
+        let at_dc = Point::new(0.0, point.values);
+        let r3 = point.value(self.r3);
+        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+        let (m_p, _) = self.output_gains(&at_dc);
+        (m_p * (r3 / r4)).re * self.reference_voltage
     }
 }
 
@@ -114,6 +138,10 @@ impl StageSolve for DifferenceAmp {
     fn probes(&self, point: &Point, _load: &Mat2) -> Vec<Probe> {
         self.opamp_probes(point, "op-amp")
     }
+
+    fn output_levels(&self, point: &Point, _load: &Mat2) -> [f64; 2] {
+        [self.output_level(point), 0.0]
+    }
 }
 
 #[cfg(test)]
@@ -128,6 +156,7 @@ mod tests {
             r3: ParamId(2),
             r4: ParamId(3),
             reference_resistance: None,
+            reference_voltage: 0.0,
             opamp: OpAmp::default(),
         };
         amp.output_gains(&Point::new(0.0, values))

@@ -61,6 +61,9 @@ pub struct IntegratedInAmp {
     pub input_range: Option<VoltageRange>,
     /// The output swing, for the headroom check.
     pub output_swing: Option<VoltageRange>,
+    /// The DC voltage at the reference pin, in volts: where the output
+    /// rests (for the headroom check; it carries no signal).
+    pub reference_voltage: f64,
     /// The largest input bias current, A.
     pub input_bias_current: Option<f64>,
     /// The largest input offset current, A.
@@ -98,9 +101,13 @@ impl StageSolve for IntegratedInAmp {
             probes.push(range.probe("n input", [ZERO, ONE], 0.0));
         }
         if let (Some(range), Ok(transfer)) = (self.output_swing, self.transfer(point, load)) {
-            probes.push(range.probe("output", transfer.0[0], 0.0));
+            probes.push(range.probe("output", transfer.0[0], self.reference_voltage));
         }
         probes
+    }
+
+    fn output_levels(&self, _point: &Point, _load: &Mat2) -> [f64; 2] {
+        [self.reference_voltage, 0.0]
     }
 }
 
@@ -121,6 +128,7 @@ mod tests {
             pins: [PinShunt::default(); 2],
             input_range: None,
             output_swing: None,
+            reference_voltage: 0.0,
             input_bias_current: None,
             input_offset_current: None,
         };

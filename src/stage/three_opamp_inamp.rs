@@ -88,6 +88,10 @@ impl StageSolve for ThreeOpAmpInAmp {
         Ok(second * first)
     }
 
+    fn output_levels(&self, point: &Point, _load: &Mat2) -> [f64; 2] {
+        [self.difference_stage.output_level(point), 0.0]
+    }
+
     fn probes(&self, point: &Point, _load: &Mat2) -> Vec<Probe> {
         let Ok(first) = self.first_stage_transfer(point) else {
             return Vec::new();
@@ -140,6 +144,7 @@ mod tests {
                 r3: ParamId(3),
                 r4: ParamId(3),
                 reference_resistance: None,
+                reference_voltage: 0.0,
                 opamp: OpAmp::default(),
             },
         }

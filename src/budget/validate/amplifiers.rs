@@ -58,6 +58,7 @@ impl Validator<'_> {
             Some(opamp) => self.opamp(opamp, &format!("{path}.opamp"), stage, who),
             None => OpAmp::default(),
         };
+        let reference_voltage = self.reference_voltage(raw.reference_voltage.as_ref(), path);
         if self.problems.len() > problems_before {
             return None;
         }
@@ -67,6 +68,7 @@ impl Validator<'_> {
             r3: r3?,
             r4: r4?,
             reference_resistance,
+            reference_voltage,
             opamp,
         })
     }
@@ -181,6 +183,7 @@ impl Validator<'_> {
             pins,
             input_range,
             output_swing,
+            reference_voltage: self.reference_voltage(raw.reference_voltage.as_ref(), path),
             input_bias_current: self.current(
                 raw.input_bias_current.as_ref(),
                 &format!("{path}.input_bias_current"),
@@ -248,6 +251,30 @@ impl Validator<'_> {
     }
 
     /// A `[low, high]` voltage range.
+    /// A stage's `reference_voltage`: a plain DC voltage of either sign, 0 V
+    /// when absent.
+    fn reference_voltage(&mut self, raw: Option<&Scalar>, path: &str) -> f64 {
+        let Some(raw) = raw else {
+            return 0.0;
+        };
+        let path = format!("{path}.reference_voltage");
+        match crate::quantity::parse_quantity(&raw.0, Dimension::Voltage) {
+            Ok(q) if q.form.is_none() && q.tolerance.is_none() => q.value,
+            Ok(_) => {
+                self.problem(
+                    &path,
+                    format!("`{}` is not a plain voltage", raw.0.trim()),
+                    "write the DC voltage at the reference pin against ground, e.g. `2.5 V`",
+                );
+                0.0
+            }
+            Err(error) => {
+                self.problem(&path, error.to_string(), error.fix());
+                0.0
+            }
+        }
+    }
+
     pub(super) fn voltage_range(
         &mut self,
         raw: Option<&[Scalar]>,
