@@ -91,7 +91,7 @@ struct ScaledGains {
 impl DifferenceValues {
     fn of(d: &DifferenceAmp, v: &[f64]) -> DifferenceValues {
         let (r1, r2, r3) = (v[d.r1.0], v[d.r2.0], v[d.r3.0]);
-        let r4 = v[d.r4.0] + d.reference_resistance.map_or(0.0, |id| v[id.0]);
+        let r4 = d.r4_to_reference(&crate::stage::Point::new(0.0, v));
         DifferenceValues {
             k3: r4 / (r3 + r4),
             alpha: r2 / (r1 + r2),
@@ -164,13 +164,19 @@ struct PinValues {
     capacitance: f64,
 }
 
-/// Everything one trial needs, computed once.
-#[derive(Debug, Clone, Default)]
-pub struct Prepared {
+/// The source network's frequency-independent values.
+#[derive(Debug, Clone, Copy, Default)]
+struct SourceValues {
     legs: [LegValues; 2],
     guard: f64,
     differential_c: f64,
-    has_source: bool,
+}
+
+/// Everything one trial needs, computed once.
+#[derive(Debug, Clone, Default)]
+pub struct Prepared {
+    /// None when the amplifier is driven straight from the sensor.
+    source: Option<SourceValues>,
     amplifier: AmplifierValues,
 }
 
@@ -225,11 +231,10 @@ impl FastChain {
 
     /// The frequency-independent values of one trial's parameter values.
     pub fn prepare(&self, v: &[f64], prepared: &mut Prepared) {
-        if let Some(network) = &self.source {
-            prepared.has_source = true;
-            prepared.guard = network.guard_drive / 2.0;
-            prepared.differential_c = optional(network.differential_capacitance, v);
-            for (slot, leg) in prepared.legs.iter_mut().zip(&network.legs) {
+        prepared.source = self.source.as_ref().map(|network| SourceValues {
+            guard: network.guard_drive / 2.0,
+            differential_c: optional(network.differential_capacitance, v),
+            legs: network.legs.each_ref().map(|leg| {
                 let (gs, cs) = match leg.source {
                     SourceImpedance::Resistive {
                         resistance,
@@ -240,7 +245,7 @@ impl FastChain {
                         lower_arm,
                     } => (1.0 / v[upper_arm.0] + 1.0 / v[lower_arm.0], 0.0),
                 };
-                *slot = LegValues {
+                LegValues {
                     gs,
                     cs,
                     cable: optional(leg.cable_capacitance, v),
@@ -248,9 +253,9 @@ impl FastChain {
                     shunt_c: optional(leg.filter_capacitance, v)
                         + optional(leg.input_capacitance, v),
                     shunt_g: leg.input_resistance.map_or(0.0, |id| 1.0 / v[id.0]),
-                };
-            }
-        }
+                }
+            }),
+        });
         let pin_values = |pins: &[crate::stage::PinShunt; 2]| {
             [0, 1].map(|i| PinValues {
                 conductance: pins[i].resistance.map_or(0.0, |id| 1.0 / v[id.0]),
@@ -279,13 +284,6 @@ impl FastChain {
             }
             _ => unreachable!("FastChain::new admits only these amplifiers"),
         };
-    }
-
-    /// |ε| at frequency `f` (Hz) for a prepared trial.
-    pub fn conversion(&self, p: &Prepared, f: f64) -> f64 {
-        let mut out = [0.0];
-        self.conversions_squared(p, &[f], &mut out);
-        out[0].sqrt()
     }
 
     /// |ε|² at each of `frequencies` (Hz) for a prepared trial, into `out`
@@ -362,8 +360,8 @@ fn conversion_squared(p: &Prepared, f: Reals) -> Reals {
     // source network, M v = drive for common mode and M v = (drive_0,
     // −drive_1)/2 for differential, so with w = row · adj(M) the two parts
     // are w_0 drive_0 and w_1 drive_1.
-    let (a, b) = if p.has_source {
-        let (m, drive) = source_system(p, omega, &loaded);
+    let (a, b) = if let Some(source) = &p.source {
+        let (m, drive) = source_system(source, omega, &loaded);
         let w0 = r0 * m[1][1] - r1 * m[1][0];
         let w1 = r1 * m[0][0] - r0 * m[0][1];
         (w0 * drive[0], w1 * drive[1])
@@ -464,7 +462,7 @@ fn pin_admittance(pins: &[PinValues; 2], omega: Reals) -> [Complexes; 2] {
 /// admittance (and by the load's scale) so nothing is divided.
 #[inline(always)]
 fn source_system(
-    p: &Prepared,
+    p: &SourceValues,
     omega: Reals,
     loaded: &Loaded,
 ) -> ([[Complexes; 2]; 2], [Complexes; 2]) {
@@ -540,7 +538,9 @@ mod tests {
                 assert_eq!(baseline, chosen, "{name}, trial {trial}");
                 // A frequency gives the same bits alone as in a block.
                 for (index, &f) in frequencies.iter().enumerate() {
-                    assert_eq!(fast.conversion(&prepared, f), baseline[index].sqrt());
+                    let mut alone = [0.0];
+                    fast.conversions_squared(&prepared, &[f], &mut alone);
+                    assert_eq!(alone[0], baseline[index]);
                 }
                 checked += 1;
             }

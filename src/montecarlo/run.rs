@@ -2,9 +2,9 @@
 //! trial's values drawn from its own stream, every analysis frequency solved
 //! exactly, and statistics that merge the same way whatever the threads did.
 
-use super::stats::squared_of_cmrr_db;
+use super::stats::{squared_of_cmrr_db, SMALLEST_SQUARED};
 use super::{CmrrHistogram, FastChain, Prepared, Sampler, SplitMix64};
-use crate::engine::{chain_response, EngineError, RESOLUTION_FLOOR};
+use crate::engine::{chain_response, EngineError};
 use crate::model::Budget;
 use crate::stage::Point;
 use rayon::prelude::*;
@@ -100,7 +100,7 @@ impl TrialCheck {
             // meets any minimum.
             TrialCheck::MinimumCmrr { point, min_db } => SquaredBound {
                 point,
-                max_squared: squared_of_cmrr_db(min_db).max(RESOLUTION_FLOOR * RESOLUTION_FLOOR),
+                max_squared: squared_of_cmrr_db(min_db).max(SMALLEST_SQUARED),
             },
             TrialCheck::MaximumError {
                 point,

@@ -20,10 +20,10 @@ const SHIFT: u32 = 52 - MANTISSA_BITS;
 pub const HISTOGRAM_LOW_DB: f64 = -50.0;
 /// The widest bin, dB of CMRR: 10·log10(1 + 2^−7).
 pub const BIN_DB: f64 = 0.034;
-/// |ε|² at the low end of the range.
+/// |ε|² at the low end of the range: 10^(−HISTOGRAM_LOW_DB/10).
 const LARGEST_SQUARED: f64 = 1e5;
 /// |ε|² below this reads as an infinite CMRR (the engine's floor).
-const SMALLEST_SQUARED: f64 = RESOLUTION_FLOOR * RESOLUTION_FLOOR;
+pub(crate) const SMALLEST_SQUARED: f64 = RESOLUTION_FLOOR * RESOLUTION_FLOOR;
 
 /// The CMRR in dB of a squared conversion |ε|²: infinite below the
 /// engine's resolution floor.
@@ -80,14 +80,13 @@ struct BinWindow {
 }
 
 impl BinWindow {
-    /// Add `n` to bin `bin`.
+    /// Count one in bin `bin`.
     #[inline]
-    fn add(&mut self, bin: usize, n: u32) {
-        let offset = bin.wrapping_sub(self.first);
-        if offset >= self.counts.len() {
+    fn add_one(&mut self, bin: usize) {
+        if bin.wrapping_sub(self.first) >= self.counts.len() {
             self.cover(bin, bin);
         }
-        self.counts[bin - self.first] += n;
+        self.counts[bin - self.first] += 1;
     }
 
     /// Grow the window to hold bins `low ..= high`, with room to spare in
@@ -145,6 +144,21 @@ impl PartialEq for BinWindow {
     }
 }
 
+/// The worse of a worst-so-far and a trial, each (|ε|², trial index): the
+/// larger |ε|², and among equals the lower index, so the answer does not
+/// depend on the order trials arrive in.
+#[inline]
+fn worse_of(seen: Option<(f64, u64)>, candidate: (f64, u64)) -> Option<(f64, u64)> {
+    match seen {
+        Some((squared, trial))
+            if squared > candidate.0 || (squared == candidate.0 && trial < candidate.1) =>
+        {
+            seen
+        }
+        _ => Some(candidate),
+    }
+}
+
 /// A histogram of CMRR in dB with the worst trial seen.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct CmrrHistogram {
@@ -175,42 +189,29 @@ impl CmrrHistogram {
         self.record_run(std::iter::once(squared), trial);
     }
 
-    /// Record consecutive trials' |ε|², the first being trial `first`.
-    /// The tallies live in registers for the run and are stored once.
+    /// Record consecutive trials' |ε|², the first being trial `first`, as
+    /// [`Self::record_squared`] does one. The tallies live in registers
+    /// for the run and are stored once.
     #[inline]
     pub fn record_run(&mut self, squared: impl IntoIterator<Item = f64>, first: u64) {
         let (mut count, mut below, mut infinite) = (0u64, 0u64, 0u64);
-        let (mut worst, mut worst_trial) = self.worst.unwrap_or((f64::NEG_INFINITY, u64::MAX));
+        let mut worst = self.worst;
         for (trial, value) in (first..).zip(squared) {
             count += 1;
             if value < SMALLEST_SQUARED {
                 infinite += 1;
             } else if value <= LARGEST_SQUARED {
-                self.bins.add(bin_of(value), 1);
+                self.bins.add_one(bin_of(value));
             } else {
                 below += 1;
             }
             let key = if value.is_nan() { f64::INFINITY } else { value };
-            if key > worst || (key == worst && trial < worst_trial) {
-                (worst, worst_trial) = (key, trial);
-            }
+            worst = worse_of(worst, (key, trial));
         }
         self.count += count;
         self.below += below;
         self.infinite += infinite;
-        if count > 0 {
-            self.worst = Some((worst, worst_trial));
-        }
-    }
-
-    fn note_worst(&mut self, squared: f64, trial: u64) {
-        let worse = match self.worst {
-            None => true,
-            Some((seen, index)) => squared > seen || (squared == seen && trial < index),
-        };
-        if worse {
-            self.worst = Some((squared, trial));
-        }
+        self.worst = worst;
     }
 
     /// Add another histogram's counts to this one.
@@ -219,8 +220,8 @@ impl CmrrHistogram {
         self.below += other.below;
         self.infinite += other.infinite;
         self.count += other.count;
-        if let Some((squared, index)) = other.worst {
-            self.note_worst(squared, index);
+        if let Some(theirs) = other.worst {
+            self.worst = worse_of(self.worst, theirs);
         }
     }
 

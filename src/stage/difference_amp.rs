@@ -48,12 +48,18 @@ pub struct DifferenceAmp {
 }
 
 impl DifferenceAmp {
+    /// R4 with the reference's source resistance in series: the whole
+    /// resistance from the non-inverting input to the reference voltage.
+    pub(crate) fn r4_to_reference(&self, point: &Point) -> f64 {
+        point.value(self.r4) + point.value_or(self.reference_resistance, 0.0)
+    }
+
     /// The output voltage per volt at the p and n pins: `(m_p, m_n)`.
     pub(crate) fn output_gains(&self, point: &Point) -> (C64, C64) {
         let r1 = point.value(self.r1);
         let r2 = point.value(self.r2);
         let r3 = point.value(self.r3);
-        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+        let r4 = self.r4_to_reference(point);
         let k3 = r4 / (r3 + r4);
         let alpha = r2 / (r1 + r2);
         let beta = r1 / (r1 + r2);
@@ -72,7 +78,7 @@ impl DifferenceAmp {
     pub(crate) fn opamp_probes(&self, point: &Point, prefix: &str) -> Vec<Probe> {
         let mut probes = Vec::new();
         let r3 = point.value(self.r3);
-        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+        let r4 = self.r4_to_reference(point);
         if let Some(range) = self.opamp.input_range {
             let k3 = C64::new(r4 / (r3 + r4), 0.0);
             // The reference reaches the non-inverting input through the
@@ -100,7 +106,7 @@ impl DifferenceAmp {
         }
         let at_dc = Point::new(0.0, point.values);
         let r3 = point.value(self.r3);
-        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+        let r4 = self.r4_to_reference(point);
         let (m_p, _) = self.output_gains(&at_dc);
         (m_p * (r3 / r4)).re * self.reference_voltage
     }
@@ -111,7 +117,7 @@ impl StageSolve for DifferenceAmp {
         let r1 = point.value(self.r1);
         let r2 = point.value(self.r2);
         let r3 = point.value(self.r3);
-        let r4 = point.value(self.r4) + point.value_or(self.reference_resistance, 0.0);
+        let r4 = self.r4_to_reference(point);
         let (m_p, m_n) = self.output_gains(point);
         let feedback = 1.0 / (r1 + r2);
         Mat2::new(

@@ -251,28 +251,36 @@ impl Validator<'_> {
     }
 
     /// A `[low, high]` voltage range.
-    /// A stage's `reference_voltage`: a plain DC voltage of either sign, 0 V
-    /// when absent.
-    fn reference_voltage(&mut self, raw: Option<&Scalar>, path: &str) -> f64 {
-        let Some(raw) = raw else {
-            return 0.0;
-        };
-        let path = format!("{path}.reference_voltage");
+    /// A plain DC voltage of either sign (no amplitude form, no
+    /// tolerance); a problem naming `fix` otherwise.
+    fn plain_voltage(&mut self, raw: &Scalar, path: &str, fix: &str) -> Option<f64> {
         match crate::quantity::parse_quantity(&raw.0, Dimension::Voltage) {
-            Ok(q) if q.form.is_none() && q.tolerance.is_none() => q.value,
+            Ok(q) if q.form.is_none() && q.tolerance.is_none() => Some(q.value),
             Ok(_) => {
                 self.problem(
-                    &path,
+                    path,
                     format!("`{}` is not a plain voltage", raw.0.trim()),
-                    "write the DC voltage at the reference pin against ground, e.g. `2.5 V`",
+                    fix,
                 );
-                0.0
+                None
             }
             Err(error) => {
-                self.problem(&path, error.to_string(), error.fix());
-                0.0
+                self.problem(path, error.to_string(), error.fix());
+                None
             }
         }
+    }
+
+    /// A stage's `reference_voltage`, 0 V when absent.
+    fn reference_voltage(&mut self, raw: Option<&Scalar>, path: &str) -> f64 {
+        raw.and_then(|raw| {
+            self.plain_voltage(
+                raw,
+                &format!("{path}.reference_voltage"),
+                "write the DC voltage at the reference pin against ground, e.g. `2.5 V`",
+            )
+        })
+        .unwrap_or(0.0)
     }
 
     pub(super) fn voltage_range(
@@ -294,22 +302,11 @@ impl Validator<'_> {
         }
         let mut ends = [0.0; 2];
         for (i, (end, text)) in ends.iter_mut().zip(raw).enumerate() {
-            let q = match crate::quantity::parse_quantity(&text.0, Dimension::Voltage) {
-                Ok(q) if q.form.is_none() && q.tolerance.is_none() => q,
-                Ok(_) => {
-                    self.problem(
-                        &format!("{path}[{i}]"),
-                        format!("`{}` is not a plain voltage", text.0.trim()),
-                        "write a DC voltage against ground, e.g. `-4.8 V`",
-                    );
-                    return None;
-                }
-                Err(error) => {
-                    self.problem(&format!("{path}[{i}]"), error.to_string(), error.fix());
-                    return None;
-                }
-            };
-            *end = q.value;
+            *end = self.plain_voltage(
+                text,
+                &format!("{path}[{i}]"),
+                "write a DC voltage against ground, e.g. `-4.8 V`",
+            )?;
         }
         if ends[0] >= ends[1] {
             self.problem(
