@@ -14,3 +14,4 @@ pub mod quantity;
 pub mod report;
 pub mod stage;
 pub mod sweep;
+pub mod verdict;

@@ -4,32 +4,23 @@
 //! usage.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use cmrr_budget::budget::load_budget;
-use cmrr_budget::design::{Goal, Knob, KnobKind};
+use cmrr_budget::budget::{load_budget, LoadError};
+use cmrr_budget::design::{is_trimmable, trim_effect, DesignError, Goal, Knob, KnobKind};
 use cmrr_budget::model::Budget;
+use cmrr_budget::montecarlo::production::{production_yield, YieldReportError};
 use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions, MAX_TRIALS};
-use cmrr_budget::plot::{plot_histogram, plot_overlay, OverlaySeries};
+use cmrr_budget::plot::{plot_histogram, plot_overlay, OverlaySeries, PlotError};
 use cmrr_budget::quantity::{format_si, parse_quantity, Dimension};
-use cmrr_budget::report::compare::{
-    build_compare_report, render_compare_csv, render_compare_table,
-};
-use cmrr_budget::report::design::{
-    improve_report, render_improve_table, render_sizing_table, render_trim_table, sizing_report,
-    trim_report, TrimRow,
-};
-use cmrr_budget::report::sweep::{
-    build_sweep_report, render_sweep_chart, render_sweep_csv, render_sweep_svg, render_sweep_table,
-};
-use cmrr_budget::report::yield_report::{
-    build_yield_report, histogram_points, render_yield_csv, render_yield_table,
-};
-use cmrr_budget::report::{
-    build_report, csv::render_csv, json::render_json, table::render_table, Db, Report,
-};
+use cmrr_budget::report::compare::build_compare_report;
+use cmrr_budget::report::design::{improve_report, sizing_report, trim_report};
+use cmrr_budget::report::sweep::{build_sweep_report, render_sweep_chart, render_sweep_svg};
+use cmrr_budget::report::yield_report::histogram_points;
+use cmrr_budget::report::{Db, Render, Report};
 use cmrr_budget::sweep::{
-    run_sweep, run_sweep_at, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE, DEFAULT_TO_HZ,
+    run_sweep, run_sweep_at, SweepFailure, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE,
+    DEFAULT_TO_HZ,
 };
-use serde::Serialize;
+use cmrr_budget::verdict::{judge, judge_with, Operating, VerdictError};
 use std::io::{self, IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -76,7 +67,7 @@ enum Command {
         /// Where the temperature sits: reference (default), cold or hot end
         /// of the budget's range.
         #[arg(long, value_enum)]
-        temperature: Option<TemperatureArg>,
+        temperature: Option<SweepTemperature>,
     },
     /// Monte Carlo over the parts' spreads with the exact engine: CMRR and
     /// error percentiles, yield against the requirement with its confidence
@@ -228,6 +219,18 @@ enum VaryArg {
     Tail,
 }
 
+/// Where a sweep's temperature sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum SweepTemperature {
+    /// At the reference temperature.
+    Reference,
+    /// At the cold end.
+    Cold,
+    /// At the hot end.
+    Hot,
+}
+
+/// Where a Monte Carlo run's temperature sits.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 enum TemperatureArg {
     /// At the reference temperature.
@@ -250,6 +253,78 @@ enum Format {
     Csv,
 }
 
+impl From<Format> for cmrr_budget::report::Format {
+    fn from(format: Format) -> Self {
+        match format {
+            Format::Table => cmrr_budget::report::Format::Table,
+            Format::Json => cmrr_budget::report::Format::Json,
+            Format::Csv => cmrr_budget::report::Format::Csv,
+        }
+    }
+}
+
+/// Why a command failed: every error is reported once, here, with exit
+/// status 2.
+#[derive(Debug, thiserror::Error)]
+enum CliError {
+    /// The budget file could not be read or is invalid.
+    #[error(transparent)]
+    Load(#[from] LoadError),
+    /// A computation on a valid budget failed; names the file.
+    #[error("{file}: {source}")]
+    InFile {
+        /// The budget file.
+        file: String,
+        /// What failed.
+        source: Failure,
+    },
+    /// An option's value is not usable.
+    #[error("option {option}: {problem}")]
+    Option {
+        /// The option, e.g. `--yield`.
+        option: &'static str,
+        /// What is wrong and what would be right.
+        problem: String,
+    },
+    /// Options that do not go together.
+    #[error("{0}")]
+    Usage(&'static str),
+    /// An output path that would clobber a file, or could not be written.
+    #[error("{path}: {problem}")]
+    Output {
+        /// The path.
+        path: String,
+        /// What is wrong.
+        problem: String,
+    },
+    /// A plot could not be drawn.
+    #[error(transparent)]
+    Plot(#[from] PlotError),
+}
+
+/// What failed in a computation on a valid budget.
+#[derive(Debug, thiserror::Error)]
+enum Failure {
+    #[error(transparent)]
+    Verdict(#[from] VerdictError),
+    #[error(transparent)]
+    Sweep(#[from] SweepFailure),
+    #[error(transparent)]
+    Yield(#[from] YieldReportError),
+    #[error(transparent)]
+    Design(#[from] DesignError),
+    #[error("{0}")]
+    Budget(String),
+}
+
+/// Attach the budget file's name to a computation's failure.
+fn in_file<E: Into<Failure>>(file: &Path) -> impl FnOnce(E) -> CliError + '_ {
+    move |error| CliError::InFile {
+        file: file.display().to_string(),
+        source: error.into(),
+    }
+}
+
 /// Exit statuses.
 const MET: u8 = 0;
 const MISSED: u8 = 1;
@@ -266,7 +341,7 @@ fn main() -> ExitCode {
     }
 }
 
-fn run(cli: Cli) -> Result<u8, String> {
+fn run(cli: Cli) -> Result<u8, CliError> {
     match cli.command {
         Command::Check { file } => check(&file),
         Command::Budget { file, output } => budget(&file, &output),
@@ -322,7 +397,7 @@ fn run(cli: Cli) -> Result<u8, String> {
             output,
             plot,
             plot_at,
-        } => production_yield(
+        } => yield_command(
             &file,
             trials,
             seed,
@@ -343,9 +418,9 @@ fn size(
     trials: u64,
     seed: u64,
     output: &OutputArgs,
-) -> Result<u8, String> {
+) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let budget = load_budget(file)?;
     let kind = match vary {
         VaryArg::Resistors => KnobKind::Resistors,
         VaryArg::NetworkRatio => KnobKind::NetworkRatio,
@@ -355,16 +430,21 @@ fn size(
         VaryArg::FirstStageGain => KnobKind::FirstStageGain,
         VaryArg::Tail => KnobKind::Tail,
     };
-    let knob =
-        Knob::find(&budget, kind, stage).map_err(|e| format!("{}: --vary: {e}", file.display()))?;
+    let knob = Knob::find(&budget, kind, stage).map_err(|e| CliError::Option {
+        option: "--vary",
+        problem: format!("{}: {e}", file.display()),
+    })?;
     let (goal, goal_text) = match yield_target {
         Some(text) => {
-            let q = parse_quantity(text, Dimension::Fraction)
-                .map_err(|e| format!("option --yield: {e}"))?;
+            let q = parse_quantity(text, Dimension::Fraction).map_err(|e| CliError::Option {
+                option: "--yield",
+                problem: e.to_string(),
+            })?;
             if !(q.value > 0.0 && q.value < 1.0) {
-                return Err(format!(
-                    "option --yield: `{text}` must lie between 0 % and 100 %"
-                ));
+                return Err(CliError::Option {
+                    option: "--yield",
+                    problem: format!("`{text}` must lie between 0 % and 100 %"),
+                });
             }
             check_trial_count("--trials", trials)?;
             (
@@ -384,17 +464,12 @@ fn size(
             "the requirement as judged by `cmrr budget`".to_string(),
         ),
     };
-    let sizing = cmrr_budget::design::size(&budget, &knob, goal)
-        .map_err(|e| format!("{}: {e}", file.display()))?;
+    let sizing = cmrr_budget::design::size(&budget, &knob, goal).map_err(in_file(file))?;
     let report = sizing_report(&budget.name, goal_text, sizing);
-    let text = match output.format {
-        Format::Table => render_sizing_table(&report),
-        Format::Json => json(&report),
-        Format::Csv => {
-            return Err("`size` reports as a table or JSON; use --format table or json".into())
-        }
-    };
-    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    output.emit(
+        &report.render(output.format.into()),
+        &cmrr_budget::report::cautions_for(&budget),
+    )?;
     Ok(MET)
 }
 
@@ -403,26 +478,19 @@ fn improve(
     yield_trials: Option<u64>,
     seed: u64,
     output: &OutputArgs,
-) -> Result<u8, String> {
+) -> Result<u8, CliError> {
     if let Some(trials) = yield_trials {
         check_trial_count("--yield-trials", trials)?;
     }
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
-    let base = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
+    let budget = load_budget(file)?;
+    let base = judge(&budget).map_err(in_file(file))?;
     let allocation = cmrr_budget::design::allocate(&base);
     let sensitivity = cmrr_budget::design::sensitivity(&budget, yield_trials.map(|t| (t, seed)))
-        .map_err(|e| format!("{}: {e}", file.display()))?;
+        .map_err(in_file(file))?;
     let sources = budget.interference.iter().map(|s| s.name.clone()).collect();
     let report = improve_report(&budget.name, sources, allocation, sensitivity);
-    let text = match output.format {
-        Format::Table => render_improve_table(&report),
-        Format::Json => json(&report),
-        Format::Csv => {
-            return Err("`improve` reports as a table or JSON; use --format table or json".into())
-        }
-    };
-    output.emit(&text, &base.cautions)?;
+    output.emit(&report.render(output.format.into()), &base.cautions)?;
     Ok(MET)
 }
 
@@ -431,64 +499,64 @@ fn trim(
     stage: Option<&str>,
     resolution: &str,
     output: &OutputArgs,
-) -> Result<u8, String> {
+) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let budget = load_budget(file)?;
     let resolution = parse_quantity(resolution, Dimension::Fraction)
-        .map_err(|e| format!("option --resolution: {e}"))?
+        .map_err(|e| CliError::Option {
+            option: "--resolution",
+            problem: e.to_string(),
+        })?
         .value;
     if !(resolution > 0.0 && resolution < 1.0) {
-        return Err("option --resolution: a trim resolution lies between 0 and 100 %".into());
+        return Err(CliError::Option {
+            option: "--resolution",
+            problem: "a trim resolution lies between 0 and 100 %, e.g. `10 ppm`".into(),
+        });
     }
-    let trimmable = |kind: &cmrr_budget::stage::StageKind| {
-        matches!(
-            kind,
-            cmrr_budget::stage::StageKind::DifferenceAmp(_)
-                | cmrr_budget::stage::StageKind::ThreeOpAmpInAmp(_)
-        )
-    };
     let index = match stage {
         Some(label) => budget
             .chain
             .iter()
-            .position(|s| s.label == label && trimmable(&s.kind))
-            .ok_or_else(|| format!("{}: --stage: no difference amplifier or three-op-amp in-amp is labelled `{label}`", file.display()))?,
+            .position(|s| s.label == label && is_trimmable(&s.kind))
+            .ok_or_else(|| CliError::Option {
+                option: "--stage",
+                problem: format!(
+                    "{}: no difference amplifier or three-op-amp in-amp is labelled `{label}`",
+                    file.display()
+                ),
+            })?,
         None => budget
             .chain
             .iter()
-            .position(|s| trimmable(&s.kind))
-            .ok_or_else(|| format!("{}: the chain has no difference stage to trim", file.display()))?,
+            .position(|s| is_trimmable(&s.kind))
+            .ok_or_else(|| {
+                in_file(file)(Failure::Budget(
+                    "the chain has no difference stage to trim".into(),
+                ))
+            })?,
     };
-    let trimmed = cmrr_budget::design::trimmed(&budget, index, resolution)
-        .expect("the stage has a difference stage");
-    let before = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
-    let after = build_report(&trimmed).map_err(|e| format!("{}: {e}", file.display()))?;
-    let rows = before
-        .results
-        .iter()
-        .zip(&after.results)
-        .map(|(b, a)| TrimRow {
-            source: b.source.clone(),
-            frequency_hz: b.frequency_hz,
-            before_db: b.cmrr_db.worst_case.0,
-            after_db: a.cmrr_db.worst_case.0,
-            after_over_temperature_db: a.at_temperature.as_ref().map(|t| t.cmrr_db.worst_case.0),
-        })
-        .collect();
-    let report = trim_report(&budget.name, &budget.chain[index].label, resolution, rows);
-    let text = match output.format {
-        Format::Table => render_trim_table(&report),
-        Format::Json => json(&report),
-        Format::Csv => {
-            return Err("`trim` reports as a table or JSON; use --format table or json".into())
-        }
-    };
-    output.emit(&text, &before.cautions)?;
+    let rows = trim_effect(&budget, index, resolution).map_err(in_file(file))?;
+    let judged_on = budget
+        .requirement
+        .as_ref()
+        .map_or(cmrr_budget::model::Judgement::WorstCase, |r| r.judged_on);
+    let report = trim_report(
+        &budget.name,
+        &budget.chain[index].label,
+        resolution,
+        judged_on,
+        rows,
+    );
+    output.emit(
+        &report.render(output.format.into()),
+        &cmrr_budget::report::cautions_for(&budget),
+    )?;
     Ok(MET)
 }
 
 #[allow(clippy::too_many_arguments)]
-fn production_yield(
+fn yield_command(
     file: &Path,
     trials: u64,
     seed: u64,
@@ -497,10 +565,16 @@ fn production_yield(
     output: &OutputArgs,
     plot: Option<&Path>,
     plot_at: Option<&str>,
-) -> Result<u8, String> {
+) -> Result<u8, CliError> {
     check_trial_count("--trials", trials)?;
+    if threads == Some(0) {
+        return Err(CliError::Option {
+            option: "--threads",
+            problem: "give at least 1 thread, or leave the option out to use every core".into(),
+        });
+    }
     output.check_paths(&[file], plot)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let budget = load_budget(file)?;
     let mode = match temperature {
         Some(TemperatureArg::Reference) => TemperatureMode::Reference,
         Some(TemperatureArg::Drawn) => TemperatureMode::Drawn,
@@ -513,7 +587,10 @@ fn production_yield(
         .map(|t| {
             parse_quantity(t, Dimension::Frequency)
                 .map(|q| q.value)
-                .map_err(|e| format!("option --plot-at: {e}"))
+                .map_err(|e| CliError::Option {
+                    option: "--plot-at",
+                    problem: e.to_string(),
+                })
         })
         .transpose()?;
     let stop = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
@@ -552,12 +629,15 @@ fn production_yield(
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(threads.unwrap_or(0))
         .build()
-        .map_err(|e| format!("cannot start the worker threads: {e}"))?;
-    let result = pool.install(|| build_yield_report(&budget, options, &progress, &stop));
+        .map_err(|e| CliError::Output {
+            path: "worker threads".into(),
+            problem: format!("cannot start them: {e}"),
+        })?;
+    let result = pool.install(|| production_yield(&budget, options, &progress, &stop));
     if let Some(bar) = &bar {
         bar.finish_and_clear();
     }
-    let (report, run) = result.map_err(|e| format!("{}: {e}", file.display()))?;
+    let (report, run) = result.map_err(in_file(file))?;
     if report.interrupted {
         eprintln!(
             "interrupted: {} of {} trials ran; the figures below are from those",
@@ -570,11 +650,12 @@ fn production_yield(
                 .frequencies
                 .iter()
                 .position(|g| (g - f).abs() <= 1e-9 * f.max(1.0))
-                .ok_or_else(|| {
-                    format!(
-                        "option --plot-at: {} is not one of the budget's analysis frequencies",
+                .ok_or_else(|| CliError::Option {
+                    option: "--plot-at",
+                    problem: format!(
+                        "{} is not one of the budget's analysis frequencies",
                         format_si(f, "Hz")
-                    )
+                    ),
                 })?,
             None => report
                 .frequencies
@@ -599,21 +680,18 @@ fn production_yield(
             &histogram_points(&run, index),
             at.required_db.map(|d| d.0),
             &percentiles,
-        )
-        .map_err(|e| e.to_string())?;
+        )?;
         write_file(path, &svg)?;
     }
-    let text = match output.format {
-        Format::Table => render_yield_table(&report),
-        Format::Json => json(&report),
-        Format::Csv => render_yield_csv(&report),
-    };
-    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    output.emit(
+        &report.render(output.format.into()),
+        &cmrr_budget::report::cautions_for(&budget),
+    )?;
     Ok(MET)
 }
 
-fn check(file: &Path) -> Result<u8, String> {
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
+fn check(file: &Path) -> Result<u8, CliError> {
+    let budget = load_budget(file)?;
     let amplifiers = budget
         .chain
         .iter()
@@ -631,16 +709,11 @@ fn check(file: &Path) -> Result<u8, String> {
     Ok(MET)
 }
 
-fn budget(file: &Path, output: &OutputArgs) -> Result<u8, String> {
+fn budget(file: &Path, output: &OutputArgs) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
-    let report = build_report(&budget).map_err(|e| format!("{}: {e}", file.display()))?;
-    let text = match output.format {
-        Format::Table => render_table(&report),
-        Format::Json => render_json(&report),
-        Format::Csv => render_csv(&report),
-    };
-    output.emit(&text, &report.cautions)?;
+    let budget = load_budget(file)?;
+    let report = judge(&budget).map_err(in_file(file))?;
+    output.emit(&report.render(output.format.into()), &report.cautions)?;
     Ok(exit_status(&report))
 }
 
@@ -650,48 +723,39 @@ fn sweep(
     output: &OutputArgs,
     plot: Option<&Path>,
     chart: bool,
-    temperature: Option<TemperatureArg>,
-) -> Result<u8, String> {
+    temperature: Option<SweepTemperature>,
+) -> Result<u8, CliError> {
     if chart && output.format != Format::Table {
-        return Err(
-            "--chart draws on the terminal: use it with the table format, or drop it".into(),
-        );
+        return Err(CliError::Usage(
+            "--chart draws on the terminal: use it with the table format, or drop it",
+        ));
     }
     output.check_paths(&[file], plot)?;
-    let budget = load_budget(file).map_err(|e| e.to_string())?;
+    let budget = load_budget(file)?;
     let spec = range.spec(Some(&budget))?;
-    let delta_t = match (temperature, budget.temperature) {
-        (None | Some(TemperatureArg::Reference), _) => 0.0,
-        (Some(TemperatureArg::Drawn), _) => {
-            return Err(
-                "--temperature drawn belongs to `cmrr yield`; a sweep takes reference, cold or hot"
-                    .into(),
-            );
-        }
-        (Some(TemperatureArg::Cold), Some(r)) => r.low_k - r.reference_k,
-        (Some(TemperatureArg::Hot), Some(r)) => r.high_k - r.reference_k,
-        (Some(_), None) => {
-            return Err(format!(
-                "{}: the budget has no temperature range, so a sweep runs at the reference only",
-                file.display()
-            ));
-        }
+    let operating = match temperature {
+        None | Some(SweepTemperature::Reference) => Operating::Reference,
+        Some(SweepTemperature::Cold) => Operating::Cold,
+        Some(SweepTemperature::Hot) => Operating::Hot,
     };
-    let sweep =
-        run_sweep_at(&budget, spec, delta_t).map_err(|e| format!("{}: {e}", file.display()))?;
-    let report = build_sweep_report(&budget, &sweep, delta_t)
-        .map_err(|e| format!("{}: {e}", file.display()))?;
+    let verdict = judge_with(&budget, operating).map_err(in_file(file))?;
+    let delta_t = match (operating, budget.temperature) {
+        (Operating::Cold, Some(r)) => r.low_k - r.reference_k,
+        (Operating::Hot, Some(r)) => r.high_k - r.reference_k,
+        _ => 0.0,
+    };
+    let sweep = run_sweep_at(&budget, spec, delta_t).map_err(in_file(file))?;
+    let report = build_sweep_report(&budget, &sweep, delta_t, &verdict);
     if let Some(path) = plot {
-        let svg = render_sweep_svg(&report).map_err(|e| e.to_string())?;
+        let svg = render_sweep_svg(&report)?;
         write_file(path, &svg)?;
     }
-    let text = match (output.format, chart) {
-        (Format::Table, true) => render_sweep_chart(&report),
-        (Format::Table, false) => render_sweep_table(&report),
-        (Format::Json, _) => json(&report),
-        (Format::Csv, _) => render_sweep_csv(&report),
+    let text = if chart {
+        render_sweep_chart(&report)
+    } else {
+        report.render(output.format.into())
     };
-    output.emit(&text, &cmrr_budget::report::cautions_for(&budget))?;
+    output.emit(&text, &verdict.cautions)?;
     Ok(MET)
 }
 
@@ -700,18 +764,17 @@ fn compare(
     output: &OutputArgs,
     plot: Option<&Path>,
     range: &RangeArgs,
-) -> Result<u8, String> {
+) -> Result<u8, CliError> {
     let inputs: Vec<&Path> = files.iter().map(PathBuf::as_path).collect();
     output.check_paths(&inputs, plot)?;
-    let mut budgets: Vec<(String, Budget)> = Vec::new();
+    let mut budgets: Vec<(&Path, Budget)> = Vec::new();
     for file in files {
-        let budget = load_budget(file).map_err(|e| e.to_string())?;
-        budgets.push((file.display().to_string(), budget));
+        budgets.push((file.as_path(), load_budget(file)?));
     }
     let mut reports: Vec<(String, Report)> = Vec::new();
     for (file, budget) in &budgets {
-        let report = build_report(budget).map_err(|e| format!("{file}: {e}"))?;
-        reports.push((file.clone(), report));
+        let report = judge(budget).map_err(in_file(file))?;
+        reports.push((file.display().to_string(), report));
     }
     let borrowed: Vec<(String, &Report)> = reports.iter().map(|(f, r)| (f.clone(), r)).collect();
     let comparison = build_compare_report(&borrowed);
@@ -721,7 +784,7 @@ fn compare(
         let mut required = Vec::new();
         let mut interference: Vec<(f64, String)> = Vec::new();
         for ((file, budget), design) in budgets.iter().zip(&comparison.designs) {
-            let sweep = run_sweep(budget, spec).map_err(|e| format!("{file}: {e}"))?;
+            let sweep = run_sweep(budget, spec).map_err(in_file(file))?;
             series.push(OverlaySeries {
                 label: design.label.clone(),
                 points: sweep
@@ -743,52 +806,43 @@ fn compare(
             }
         }
         let svg = plot_overlay(
-            "worst-case CMRR, designs compared",
+            "worst-case CMRR at the reference temperature, designs compared",
             &series,
             &required,
             &interference,
-        )
-        .map_err(|e| e.to_string())?;
+        )?;
         write_file(path, &svg)?;
     }
-    let text = match output.format {
-        Format::Table => render_compare_table(&comparison),
-        Format::Json => json(&comparison),
-        Format::Csv => render_compare_csv(&comparison),
-    };
     let cautions: Vec<String> = reports
         .iter()
         .flat_map(|(_, r)| r.cautions.iter().cloned())
         .collect();
-    output.emit(&text, &cautions)?;
+    output.emit(&comparison.render(output.format.into()), &cautions)?;
     Ok(MET)
-}
-
-fn json<T: Serialize>(value: &T) -> String {
-    let mut text =
-        serde_json::to_string_pretty(value).expect("reports hold only strings, numbers and lists");
-    text.push('\n');
-    text
 }
 
 impl RangeArgs {
     /// Options first, then the budget file's `sweep`, then the defaults.
-    fn spec(&self, budget: Option<&Budget>) -> Result<SweepSpec, String> {
+    fn spec(&self, budget: Option<&Budget>) -> Result<SweepSpec, CliError> {
         let file = budget.map(|b| b.sweep).unwrap_or_default();
-        let frequency = |text: &Option<String>, option: &str| -> Result<Option<f64>, String> {
-            text.as_deref()
-                .map(|t| {
-                    parse_quantity(t, Dimension::Frequency)
-                        .map(|q| q.value)
-                        .map_err(|e| format!("option --{option}: {e}"))
-                })
-                .transpose()
-        };
+        let frequency =
+            |text: &Option<String>, option: &'static str| -> Result<Option<f64>, CliError> {
+                text.as_deref()
+                    .map(|t| {
+                        parse_quantity(t, Dimension::Frequency)
+                            .map(|q| q.value)
+                            .map_err(|e| CliError::Option {
+                                option,
+                                problem: e.to_string(),
+                            })
+                    })
+                    .transpose()
+            };
         Ok(SweepSpec {
-            from_hz: frequency(&self.from, "from")?
+            from_hz: frequency(&self.from, "--from")?
                 .or(file.from_hz)
                 .unwrap_or(DEFAULT_FROM_HZ),
-            to_hz: frequency(&self.to, "to")?
+            to_hz: frequency(&self.to, "--to")?
                 .or(file.to_hz)
                 .unwrap_or(DEFAULT_TO_HZ),
             per_decade: self
@@ -802,16 +856,16 @@ impl RangeArgs {
 impl OutputArgs {
     /// Refuse outputs that would overwrite an input, or an existing file
     /// without `--force`.
-    fn check_paths(&self, inputs: &[&Path], plot: Option<&Path>) -> Result<(), String> {
+    fn check_paths(&self, inputs: &[&Path], plot: Option<&Path>) -> Result<(), CliError> {
         for output in self.output.iter().map(PathBuf::as_path).chain(plot) {
             check_output_path(output, inputs, self.force)?;
         }
         if let (Some(report), Some(plot)) = (&self.output, plot) {
             if report == plot {
-                return Err(format!(
-                    "{}: the report and the plot cannot go to the same file",
-                    plot.display()
-                ));
+                return Err(CliError::Output {
+                    path: plot.display().to_string(),
+                    problem: "the report and the plot cannot go to the same file".into(),
+                });
             }
         }
         Ok(())
@@ -819,7 +873,7 @@ impl OutputArgs {
 
     /// Write the text to the output file, or print it; cautions also go to
     /// standard error when the report goes to a file.
-    fn emit(&self, text: &str, cautions: &[String]) -> Result<(), String> {
+    fn emit(&self, text: &str, cautions: &[String]) -> Result<(), CliError> {
         match &self.output {
             Some(path) => {
                 write_file(path, text)?;
@@ -833,16 +887,18 @@ impl OutputArgs {
     }
 }
 
+/// 1 when the requirement is missed or the figures do not hold.
 fn exit_status(report: &Report) -> u8 {
-    match report.verdict.met {
-        Some(false) => MISSED,
-        _ => MET,
+    if report.verdict.status.fails() {
+        MISSED
+    } else {
+        MET
     }
 }
 
 /// Print to standard output; a closed pipe (`cmrr … | head`) is not an
 /// error.
-fn print_out(text: &str) -> Result<(), String> {
+fn print_out(text: &str) -> Result<(), CliError> {
     let mut stdout = io::stdout().lock();
     match stdout
         .write_all(text.as_bytes())
@@ -850,13 +906,16 @@ fn print_out(text: &str) -> Result<(), String> {
     {
         Ok(()) => Ok(()),
         Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
-        Err(e) => Err(format!("cannot write to standard output: {e}")),
+        Err(e) => Err(CliError::Output {
+            path: "standard output".into(),
+            problem: format!("cannot write: {e}"),
+        }),
     }
 }
 
 /// Refuse an output path that would overwrite a budget file, or an
 /// existing file without `--force`.
-fn check_output_path(output: &Path, inputs: &[&Path], force: bool) -> Result<(), String> {
+fn check_output_path(output: &Path, inputs: &[&Path], force: bool) -> Result<(), CliError> {
     let is_input = inputs.iter().any(
         |input| match (output.canonicalize(), input.canonicalize()) {
             (Ok(a), Ok(b)) => a == b,
@@ -864,31 +923,37 @@ fn check_output_path(output: &Path, inputs: &[&Path], force: bool) -> Result<(),
         },
     );
     if is_input {
-        return Err(format!(
-            "{}: the output path is the budget file itself; choose another path",
-            output.display()
-        ));
+        return Err(CliError::Output {
+            path: output.display().to_string(),
+            problem: "the output path is the budget file itself; choose another path".into(),
+        });
     }
     if output.exists() && !force {
-        return Err(format!(
-            "{}: the output file already exists; add --force to replace it, or choose another path",
-            output.display()
-        ));
+        return Err(CliError::Output {
+            path: output.display().to_string(),
+            problem:
+                "the output file already exists; add --force to replace it, or choose another path"
+                    .into(),
+        });
     }
     Ok(())
 }
 
 /// Write through a temporary file beside the target and rename it into
 /// place, so a failure never leaves a half-written file.
-fn write_file(path: &Path, text: &str) -> Result<(), String> {
-    let fail = |e: io::Error| format!("{}: cannot write the report: {e}", path.display());
+fn write_file(path: &Path, text: &str) -> Result<(), CliError> {
+    let fail = |e: io::Error| CliError::Output {
+        path: path.display().to_string(),
+        problem: format!("cannot write the report: {e}"),
+    };
     let directory = match path.parent() {
         Some(dir) if !dir.as_os_str().is_empty() => dir.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    let name = path
-        .file_name()
-        .ok_or_else(|| format!("{}: not a file path", path.display()))?;
+    let name = path.file_name().ok_or_else(|| CliError::Output {
+        path: path.display().to_string(),
+        problem: "not a file path".into(),
+    })?;
     let temporary = directory.join(format!(
         ".{}.{}.partial",
         name.to_string_lossy(),
@@ -903,11 +968,14 @@ fn write_file(path: &Path, text: &str) -> Result<(), String> {
 
 /// Refuse a trial count outside what one run may take (`option` names the
 /// flag it came from).
-fn check_trial_count(option: &str, trials: u64) -> Result<(), String> {
+fn check_trial_count(option: &'static str, trials: u64) -> Result<(), CliError> {
     if trials == 0 || trials > MAX_TRIALS {
-        return Err(format!(
-            "{option} {trials}: a run takes 1 to {MAX_TRIALS} trials; run several seeds for more"
-        ));
+        return Err(CliError::Option {
+            option,
+            problem: format!(
+                "{trials}: a run takes 1 to {MAX_TRIALS} trials; run several seeds for more"
+            ),
+        });
     }
     Ok(())
 }

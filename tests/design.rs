@@ -7,7 +7,7 @@ use cmrr_budget::budget::parse_budget;
 use cmrr_budget::design::{allocate, size, trimmed, Goal, Knob, KnobKind};
 use cmrr_budget::engine::analyse_point;
 use cmrr_budget::model::Budget;
-use cmrr_budget::report::build_report;
+use cmrr_budget::verdict::judge;
 
 fn budget(chain: &str, required_db: f64) -> Budget {
     let text = format!(
@@ -129,7 +129,7 @@ fn a_yield_target_allows_a_looser_or_equal_class() {
 #[test]
 fn allocation_shares_the_allowance() {
     let b = budget(GAIN_10, 80.0);
-    let tables = allocate(&build_report(&b).unwrap());
+    let tables = allocate(&judge(&b).unwrap());
     let table = &tables[0];
     assert!((table.allowed_db - 80.0).abs() < 1e-9);
     // Four equal resistors: each gets a quarter, 12.04 dB above the total.
@@ -224,7 +224,7 @@ fn design_commands_refuse_bad_arguments() {
         .unwrap();
     assert_eq!(output.status.code(), Some(0));
     let report: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
-    assert!(report["sensitivity"][0]["yield_gain"].is_number());
+    assert!(report["sensitivity"][0]["yield_gain_points"].is_number());
     cmrr()
         .current_dir(root)
         .args(["improve", "budgets/motor-shunt.yaml", "--yield-trials", "0"])

@@ -409,6 +409,7 @@ pub struct RawRequirement {
 #[serde(rename_all = "snake_case")]
 pub enum RawJudgement {
     WorstCase,
+    WorstCorner,
     Rss,
     Nominal,
 }

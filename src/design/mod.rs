@@ -9,12 +9,11 @@ pub use knobs::{
     Knob, KnobError, KnobKind, CAPACITOR_CLASSES, RATIO_STEPS, RESISTOR_CLASSES, TRACKING_STEPS,
 };
 
-use crate::engine::EngineError;
 use crate::model::{Budget, Variation};
+use crate::montecarlo::production::production_yield;
 use crate::montecarlo::{TemperatureMode, YieldOptions};
-use crate::report::yield_report::build_yield_report;
-use crate::report::{build_report, ContributionKind, Report};
 use crate::stage::StageKind;
+use crate::verdict::{judge as judge_budget, ContributionKind, Report, Status, VerdictError};
 use serde::Serialize;
 use std::sync::atomic::AtomicBool;
 
@@ -45,9 +44,9 @@ pub enum DesignError {
     /// The knob is not in the budget.
     #[error(transparent)]
     Knob(#[from] KnobError),
-    /// The engine failed.
+    /// The budget could not be judged.
     #[error(transparent)]
-    Engine(#[from] EngineError),
+    Verdict(#[from] VerdictError),
     /// The Monte Carlo failed.
     #[error("{0}")]
     Yield(String),
@@ -61,8 +60,10 @@ pub struct Step {
     pub setting: f64,
     /// The setting as text.
     pub label: String,
-    /// Whether it meets the goal.
+    /// Whether it meets the goal (never when its figures do not hold).
     pub meets: bool,
+    /// Whether its figures hold: no node leaves its range (headroom).
+    pub holds: bool,
     /// The smallest requirement margin, dB (worst-case goal).
     pub margin_db: Option<f64>,
     /// The passing fraction (yield goal).
@@ -104,17 +105,27 @@ fn has_requirement(budget: &Budget) -> bool {
     budget.requirement.is_some() || budget.interference.iter().any(|s| s.max_error.is_some())
 }
 
-/// Judge one budget against the goal.
-fn judge(budget: &Budget, goal: Goal) -> Result<(bool, Option<f64>, Option<f64>), DesignError> {
+/// One setting judged: whether it meets the goal, whether its figures hold,
+/// its smallest margin (worst-case goal) and its yield (yield goal).
+struct Judged {
+    meets: bool,
+    holds: bool,
+    margin_db: Option<f64>,
+    yield_fraction: Option<f64>,
+}
+
+/// Judge one budget against the goal, through the verdict: a setting whose
+/// figures do not hold (a headroom finding) meets nothing.
+fn judge(budget: &Budget, goal: Goal) -> Result<Judged, DesignError> {
+    let verdict = judge_budget(budget)?;
+    let holds = verdict.verdict.status != Status::DoesNotHold;
     match goal {
-        Goal::WorstCase => {
-            let report = build_report(budget)?;
-            Ok((
-                report.verdict.met.unwrap_or(true),
-                report.verdict.margin_db.map(|m| m.0),
-                None,
-            ))
-        }
+        Goal::WorstCase => Ok(Judged {
+            meets: verdict.verdict.status == Status::Met,
+            holds,
+            margin_db: verdict.verdict.margin_db.map(|m| m.0),
+            yield_fraction: None,
+        }),
         Goal::Yield {
             fraction,
             trials,
@@ -130,10 +141,15 @@ fn judge(budget: &Budget, goal: Goal) -> Result<(bool, Option<f64>, Option<f64>)
                 seed,
                 temperature,
             };
-            let (report, _) = build_yield_report(budget, options, &|_| {}, &AtomicBool::new(false))
+            let (report, _) = production_yield(budget, options, &|_| {}, &AtomicBool::new(false))
                 .map_err(|e| DesignError::Yield(e.to_string()))?;
             let achieved = report.overall_yield.map_or(1.0, |y| y.fraction);
-            Ok((achieved >= fraction, None, Some(achieved)))
+            Ok(Judged {
+                meets: holds && achieved >= fraction,
+                holds,
+                margin_db: None,
+                yield_fraction: Some(achieved),
+            })
         }
     }
 }
@@ -145,13 +161,14 @@ fn step(
     label: String,
     goal: Goal,
 ) -> Result<Step, DesignError> {
-    let (meets, margin_db, yield_fraction) = judge(&knob.apply(budget, setting), goal)?;
+    let judged = judge(&knob.apply(budget, setting), goal)?;
     Ok(Step {
         setting,
         label,
-        meets,
-        margin_db,
-        yield_fraction,
+        meets: judged.meets,
+        holds: judged.holds,
+        margin_db: judged.margin_db,
+        yield_fraction: judged.yield_fraction,
     })
 }
 
@@ -239,7 +256,7 @@ fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, Des
 /// Where the requirement is tightest in `budget`: the largest contributor
 /// outside `knob`, when those contributors alone exceed the allowance.
 fn blocker(budget: &Budget, knob: &Knob) -> Result<Option<Blocker>, DesignError> {
-    let report = build_report(budget)?;
+    let report = judge_budget(budget)?;
     let own: Vec<(String, String)> = knob
         .params()
         .iter()
@@ -248,51 +265,31 @@ fn blocker(budget: &Budget, knob: &Knob) -> Result<Option<Blocker>, DesignError>
             (p.name.clone(), budget.chain[p.stage].label.clone())
         })
         .collect();
-    let candidates = report
-        .results
+    let points = report.judged_points();
+    let Some((point, outcome)) = points
         .iter()
-        .filter_map(|r| {
-            r.requirement.as_ref().map(|o| {
-                (
-                    r.source.clone(),
-                    o.allowed_cmrr_db.0,
-                    o.margin_db.0,
-                    &r.contributions,
-                )
-            })
-        })
-        .chain(report.frequencies.iter().filter_map(|f| {
-            f.requirement.as_ref().map(|o| {
-                (
-                    crate::quantity::format_si(f.frequency_hz, "Hz"),
-                    o.allowed_cmrr_db.0,
-                    o.margin_db.0,
-                    &f.contributions,
-                )
-            })
-        }));
-    let Some((at, allowed_db, _, rows)) = candidates.min_by(|a, b| a.2.total_cmp(&b.2)) else {
+        .filter_map(|p| p.requirement.map(|o| (p, o)))
+        .min_by(|a, b| a.1.margin_db.0.total_cmp(&b.1.margin_db.0))
+    else {
         return Ok(None);
     };
-    let allowed = 10f64.powf(-allowed_db / 20.0);
-    let others: Vec<_> = rows
+    let allowed_db = outcome.allowed_cmrr_db.0;
+    let others: Vec<_> = point
+        .contributions
         .iter()
         .filter(|row| {
             row.kind == ContributionKind::Systematic
                 || !own.iter().any(|(n, s)| *n == row.name && *s == row.stage)
         })
         .collect();
-    let others_sum: f64 = others
-        .iter()
-        .map(|row| 10f64.powf(-row.cmrr_db.0 / 20.0))
-        .sum();
-    if others_sum < allowed {
+    let others_sum: f64 = others.iter().map(|row| row.cmrr_db.conversion()).sum();
+    if others_sum < outcome.allowed_cmrr_db.conversion() {
         return Ok(None);
     }
     Ok(others.first().map(|row| Blocker {
         contributor: row.name.clone(),
         stage: row.stage.clone(),
-        at,
+        at: point.at.clone(),
         cmrr_db: row.cmrr_db.0,
         allowed_db,
     }))
@@ -320,6 +317,9 @@ pub struct Allocation {
 pub struct AllocationTable {
     /// The source or frequency.
     pub at: String,
+    /// The temperature the point is judged at (where it is worst), kelvin;
+    /// null at the reference. The contributors are those there.
+    pub temperature_k: Option<f64>,
     /// The CMRR the requirement allows all contributors together, dB.
     pub allowed_db: f64,
     /// Each contributor, largest first.
@@ -331,28 +331,20 @@ pub struct AllocationTable {
 /// it exactly) and say how far each is from its share.
 pub fn allocate(report: &Report) -> Vec<AllocationTable> {
     let mut tables = Vec::new();
-    let points = report
-        .results
-        .iter()
-        .filter_map(|r| {
-            r.requirement
-                .as_ref()
-                .map(|o| (r.source.clone(), o.allowed_cmrr_db.0, &r.contributions))
-        })
-        .chain(report.frequencies.iter().filter_map(|f| {
-            f.requirement.as_ref().map(|o| {
-                (
-                    crate::quantity::format_si(f.frequency_hz, "Hz"),
-                    o.allowed_cmrr_db.0,
-                    &f.contributions,
-                )
-            })
-        }));
-    for (at, allowed_db, rows) in points {
-        let active: Vec<_> = rows.iter().filter(|r| r.cmrr_db.0.is_finite()).collect();
+    for point in report.judged_points() {
+        let Some(outcome) = point.requirement else {
+            continue;
+        };
+        let allowed_db = outcome.allowed_cmrr_db.0;
+        let active: Vec<_> = point
+            .contributions
+            .iter()
+            .filter(|r| r.cmrr_db.0.is_finite())
+            .collect();
         let share_db = allowed_db + 20.0 * (active.len().max(1) as f64).log10();
         tables.push(AllocationTable {
-            at,
+            at: point.at.clone(),
+            temperature_k: point.judged.temperature_k,
             allowed_db,
             rows: active
                 .iter()
@@ -379,12 +371,13 @@ pub struct Sensitivity {
     pub stage: String,
     /// Its value and spread now.
     pub value: String,
-    /// Per interference source (in file order): the worst-case CMRR gained,
-    /// dB.
+    /// Per interference source (in file order): the judged CMRR gained
+    /// (the requirement's total, at the temperature where it is worst), dB.
     pub gain_db: Vec<f64>,
     /// The Monte Carlo yield gained against the whole requirement, when
-    /// asked for (a fraction; the same seed and trials as the base yield).
-    pub yield_gain: Option<f64>,
+    /// asked for, in percentage points (the same seed and trials as the
+    /// base yield).
+    pub yield_gain_points: Option<f64>,
 }
 
 /// For every varying parameter, the worst-case CMRR gained at each
@@ -398,7 +391,7 @@ pub fn sensitivity(
         let Some((trials, seed)) = yield_trials else {
             return Ok(None);
         };
-        let (_, _, fraction) = judge(
+        let judged = judge(
             b,
             Goal::Yield {
                 fraction: 1.0,
@@ -406,19 +399,19 @@ pub fn sensitivity(
                 seed,
             },
         )?;
-        Ok(fraction)
+        Ok(judged.yield_fraction)
     };
     let base_yield = yield_of(budget)?;
-    let base = build_report(budget)?;
+    let base = judge_budget(budget)?;
     let tightest = base
         .results
         .iter()
         .enumerate()
         .min_by(|a, b| {
-            let margin = |r: &crate::report::SourceResult| {
+            let margin = |r: &crate::verdict::SourceResult| {
                 r.requirement
                     .as_ref()
-                    .map_or(r.cmrr_db.worst_case.0, |o| o.margin_db.0)
+                    .map_or(r.judged.cmrr_db.0, |o| o.margin_db.0)
             };
             margin(a.1).total_cmp(&margin(b.1))
         })
@@ -436,13 +429,13 @@ pub fn sensitivity(
             },
             other => other,
         };
-        let report = build_report(&halved)?;
-        let yield_gain = match (base_yield, yield_of(&halved)?) {
-            (Some(before), Some(after)) => Some(after - before),
+        let report = judge_budget(&halved)?;
+        let yield_gain_points = match (base_yield, yield_of(&halved)?) {
+            (Some(before), Some(after)) => Some((after - before) * 100.0),
             _ => None,
         };
         out.push(Sensitivity {
-            yield_gain,
+            yield_gain_points,
             parameter: parameter.name.clone(),
             stage: budget.chain[parameter.stage].label.clone(),
             value: parameter.describe(),
@@ -450,7 +443,7 @@ pub fn sensitivity(
                 .results
                 .iter()
                 .zip(&base.results)
-                .map(|(new, old)| new.cmrr_db.worst_case.0 - old.cmrr_db.worst_case.0)
+                .map(|(new, old)| new.judged.cmrr_db.0 - old.judged.cmrr_db.0)
                 .collect(),
         });
     }
@@ -498,4 +491,59 @@ pub fn trimmed(budget: &Budget, stage: usize, resolution: f64) -> Option<Budget>
         }
     }
     Some(trimmed)
+}
+
+/// One interference source before and after a trim.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TrimRow {
+    /// The source.
+    pub source: String,
+    /// Its frequency, Hz.
+    pub frequency_hz: f64,
+    /// The judged total as built, at the reference temperature, dB.
+    pub before_db: f64,
+    /// The judged total after the trim, at the reference temperature, dB.
+    pub after_db: f64,
+    /// After the trim, at the worse end of the temperature range, dB.
+    pub after_over_temperature_db: Option<f64>,
+}
+
+/// The effect of trimming the difference stage of `stage` to
+/// `resolution`, per interference source, judged as the verdict judges.
+pub fn trim_effect(
+    budget: &Budget,
+    stage: usize,
+    resolution: f64,
+) -> Result<Vec<TrimRow>, DesignError> {
+    let trimmed_budget = trimmed(budget, stage, resolution).ok_or_else(|| {
+        DesignError::Knob(KnobError(format!(
+            "{} has no difference stage to trim",
+            budget.chain[stage].label
+        )))
+    })?;
+    let before = judge_budget(budget)?;
+    let after = judge_budget(&trimmed_budget)?;
+    Ok(before
+        .results
+        .iter()
+        .zip(&after.results)
+        .map(|(b, a)| TrimRow {
+            source: b.source.clone(),
+            frequency_hz: b.frequency_hz,
+            before_db: b.cmrr_db.judged(b.judged.on).0,
+            after_db: a.cmrr_db.judged(a.judged.on).0,
+            after_over_temperature_db: a
+                .at_temperature
+                .as_ref()
+                .map(|t| t.cmrr_db.judged(a.judged.on).0),
+        })
+        .collect())
+}
+
+/// Whether a stage kind has a difference stage a trim can act on.
+pub fn is_trimmable(kind: &StageKind) -> bool {
+    matches!(
+        kind,
+        StageKind::DifferenceAmp(_) | StageKind::ThreeOpAmpInAmp(_)
+    )
 }

@@ -2,21 +2,24 @@
 //!
 //! At one frequency: the conversion `ε = Adc/Add` (referred to the input) is
 //! solved exactly with every parameter at its nominal value (the systematic
-//! part), then once per varying parameter with that parameter alone at the
-//! extreme of its range that makes `|ε|` larger (its worst-case sign); its
-//! contribution is the difference from the nominal solve. The totals are
+//! part), then once per varying parameter at each end of its range, alone;
+//! its contribution is the larger difference from the nominal solve (its
+//! worst-case sign). The totals are
 //!
-//! - worst case: `|ε_nominal| + Σ |Δε_k|`, an upper bound to first order;
+//! - worst case (the linear bound): `|ε_nominal| + Σ |Δε_k|`, an upper
+//!   bound to first order;
 //! - RSS: `|ε_nominal| + √(Σ |Δε_k|²)`, systematic part added linearly,
 //!   random parts (independent, each at the same confidence) in quadrature;
 //! - nominal: `|ε_nominal|`.
 //!
-//! The chain is also solved exactly at the corner the worst case assumes:
-//! every parameter at once, the largest first, each at the extreme that
-//! adds most to the running sum (for a real-valued conversion at DC, all
-//! contributions in phase). What the exact corner differs from its linear
-//! prediction (`ε_nominal + Σ Δε_k`) is the interaction, reported rather
-//! than hidden.
+//! The chain can also be solved exactly at its worst sign corner
+//! ([`super::worst_corner`]): every varying parameter at one end of its
+//! range at once. The linear bound adds magnitudes; where the
+//! contributions are out of phase (a capacitor mismatch against a resistor
+//! mismatch) no corner reaches it, and the corner is the exact figure. What
+//! the corner's exact conversion differs from its linear prediction
+//! (`ε_nominal + Σ Δε_k` at the corner's signs) is the interaction,
+//! reported rather than hidden.
 
 use super::chain::{chain_response, EngineError};
 use super::linalg::C64;
@@ -28,7 +31,8 @@ use crate::stage::Point;
 /// a perfectly matched chain reports an infinite CMRR.
 pub const RESOLUTION_FLOOR: f64 = 1e-12;
 
-fn resolved(magnitude: f64) -> f64 {
+/// A magnitude, zero below the resolution floor.
+pub fn resolved(magnitude: f64) -> f64 {
     if magnitude < RESOLUTION_FLOOR {
         0.0
     } else {
@@ -45,6 +49,9 @@ pub struct Contribution {
     pub value: f64,
     /// The change in `ε` it causes alone, against the nominal solve.
     pub deviation: C64,
+    /// Both ends of its range, low then high, each with the change in `ε`
+    /// it causes there alone.
+    pub ends: [(f64, C64); 2],
 }
 
 impl Contribution {
@@ -59,18 +66,14 @@ impl Contribution {
 pub struct PointAnalysis {
     /// The frequency in hertz.
     pub freq_hz: f64,
+    /// The temperature excursion from the reference, K.
+    pub delta_t: f64,
     /// The chain's differential gain `Add` at nominal values.
     pub differential_gain: C64,
     /// The conversion `ε` at nominal values (the systematic part).
     pub nominal: C64,
     /// One entry per varying parameter, in parameter order.
     pub contributions: Vec<Contribution>,
-    /// `ε` solved exactly at the worst-aligned corner: every parameter at
-    /// once, each at the extreme that adds most to the running sum.
-    pub corner: C64,
-    /// The linear prediction at that corner: `ε_nominal + Σ Δε_k` with the
-    /// corner's signs.
-    pub corner_linear: C64,
 }
 
 impl PointAnalysis {
@@ -79,7 +82,7 @@ impl PointAnalysis {
         resolved(self.nominal.norm())
     }
 
-    /// Worst case: `|ε_nominal| + Σ |Δε_k|`.
+    /// Worst case (the linear bound): `|ε_nominal| + Σ |Δε_k|`.
     pub fn worst_case(&self) -> f64 {
         self.nominal_magnitude()
             + self
@@ -99,19 +102,19 @@ impl PointAnalysis {
         self.nominal_magnitude() + random.sqrt()
     }
 
-    /// `|ε|` at the worst-aligned corner, zero below the floor.
-    pub fn corner_magnitude(&self) -> f64 {
-        resolved(self.corner.norm())
-    }
-
-    /// The interaction: the exact corner minus its linear prediction.
-    pub fn interaction(&self) -> C64 {
-        self.corner - self.corner_linear
-    }
-
-    /// The magnitude of the interaction, zero below the floor.
-    pub fn interaction_magnitude(&self) -> f64 {
-        resolved(self.interaction().norm())
+    /// How far apart in phase the two largest contributions are, in
+    /// degrees from 0 to 90 (signs being free, a contribution and its
+    /// opposite are the same direction); `None` with fewer than two.
+    pub fn phase_spread_deg(&self) -> Option<f64> {
+        let mut largest: Vec<&Contribution> = self
+            .contributions
+            .iter()
+            .filter(|c| c.magnitude() > 0.0)
+            .collect();
+        largest.sort_by(|a, b| b.magnitude().total_cmp(&a.magnitude()));
+        let [a, b] = [largest.first()?, largest.get(1)?];
+        let angle = (a.deviation / b.deviation).arg().abs().to_degrees();
+        Some(if angle > 90.0 { 180.0 - angle } else { angle })
     }
 }
 
@@ -132,13 +135,13 @@ pub fn analyse_point_at(
     let nominal_response = chain_response(&budget.chain, &Point::new(freq_hz, &values))?;
     let nominal = nominal_response.conversion();
     // Each varying parameter at each of its extremes, alone.
-    let mut swings: Vec<(ParamId, [(f64, C64); 2])> = Vec::new();
+    let mut contributions = Vec::new();
     for (id, parameter) in budget.parameters.iter() {
         let Some(extremes) = parameter.extremes() else {
             continue;
         };
-        let mut deviations = [(0.0, C64::new(0.0, 0.0)); 2];
-        for (slot, extreme) in deviations.iter_mut().zip(extremes) {
+        let mut ends = [(0.0, C64::new(0.0, 0.0)); 2];
+        for (slot, extreme) in ends.iter_mut().zip(extremes) {
             values[id.0] = extreme;
             parameters.resolve(&mut values, delta_t);
             let conversion =
@@ -147,52 +150,25 @@ pub fn analyse_point_at(
         }
         values[id.0] = parameter.nominal;
         parameters.resolve(&mut values, delta_t);
-        swings.push((id, deviations));
-    }
-    // A contribution is the larger of the two swings.
-    let contributions: Vec<Contribution> = swings
-        .iter()
-        .map(|(id, [low, high])| {
-            let (value, deviation) = if high.1.norm() >= low.1.norm() {
-                *high
-            } else {
-                *low
-            };
-            Contribution {
-                param: *id,
-                value,
-                deviation,
-            }
-        })
-        .collect();
-    // The corner the worst case assumes: largest swings first, each at the
-    // extreme that adds most to the running sum, then solved exactly.
-    let mut order: Vec<usize> = (0..swings.len()).collect();
-    order.sort_by(|&a, &b| {
-        contributions[b]
-            .deviation
-            .norm()
-            .total_cmp(&contributions[a].deviation.norm())
-    });
-    let mut running = nominal;
-    for index in order {
-        let (id, [low, high]) = swings[index];
-        let (value, deviation) = if (running + high.1).norm() >= (running + low.1).norm() {
+        // A contribution is the larger of the two swings.
+        let [low, high] = ends;
+        let (value, deviation) = if high.1.norm() >= low.1.norm() {
             high
         } else {
             low
         };
-        running += deviation;
-        values[id.0] = value;
+        contributions.push(Contribution {
+            param: id,
+            value,
+            deviation,
+            ends,
+        });
     }
-    parameters.resolve(&mut values, delta_t);
-    let corner = chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
     Ok(PointAnalysis {
         freq_hz,
+        delta_t,
         differential_gain: nominal_response.dd,
         nominal,
         contributions,
-        corner,
-        corner_linear: running,
     })
 }

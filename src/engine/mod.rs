@@ -4,13 +4,15 @@
 
 mod chain;
 mod contributions;
+mod corners;
 mod headroom;
 pub mod linalg;
 mod mixed_mode;
 
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
-    analyse_point, analyse_point_at, Contribution, PointAnalysis, RESOLUTION_FLOOR,
+    analyse_point, analyse_point_at, resolved, Contribution, PointAnalysis, RESOLUTION_FLOOR,
 };
+pub use corners::{worst_corner, CornerSearch, EXHAUSTIVE_LIMIT};
 pub use headroom::{check_headroom, HeadroomFinding};
 pub use mixed_mode::MixedMode;

@@ -124,6 +124,22 @@ impl Amplitude {
     pub fn describe(&self) -> String {
         describe_volts(self.volts, self.form)
     }
+
+    /// The same signal's value in `form`, where that is defined.
+    ///
+    /// A constant (DC) value is its own rms and its own peak; it has no
+    /// peak-to-peak value (a constant does not swing), so that is `None`.
+    /// A sinusoid converts exactly through its peak (pk = √2 rms,
+    /// pp = 2 pk); a form-less value of a sinusoid is `None` (validation
+    /// refuses such a limit).
+    pub fn in_form(&self, form: Option<AmplitudeForm>) -> Option<f64> {
+        match (self.form, form) {
+            (None, Some(AmplitudeForm::PeakToPeak)) => None,
+            (None, _) => Some(self.volts),
+            (Some(_), None) => None,
+            (Some(_), Some(target)) => Some(self.peak_volts() / target.to_peak_factor()),
+        }
+    }
 }
 
 /// A voltage printed with its unit and, for alternating values, its form.
@@ -164,14 +180,34 @@ pub enum ErrorLimit {
 }
 
 impl ErrorLimit {
-    /// The allowed error as a peak voltage.
-    pub fn peak_volts(&self) -> f64 {
+    /// The largest conversion `|ε|` (error over common mode, both in one
+    /// form) that keeps the error of `source` within the limit: like is
+    /// compared with like. The error a source leaves has the source's own
+    /// waveform, so it is expressed in the limit's form first (see
+    /// [`Amplitude::in_form`]); a fraction of full scale is a peak figure
+    /// (the full scale is the largest differential input), so the error's
+    /// peak is compared with it. `None` where the limit's form means
+    /// nothing for the source (a peak-to-peak limit on a DC source).
+    pub fn allowed_conversion(&self, source: &Amplitude) -> Option<f64> {
         match self {
-            ErrorLimit::Volts(amplitude) => amplitude.peak_volts(),
+            ErrorLimit::Volts(limit) => {
+                let source_in_limit_form = source.in_form(limit.form)?;
+                Some(limit.volts / source_in_limit_form)
+            }
             ErrorLimit::OfFullScale {
                 fraction,
                 full_scale_volts,
-            } => fraction * full_scale_volts,
+            } => Some(fraction * full_scale_volts / source.peak_volts()),
+        }
+    }
+
+    /// The limit's form: rms, peak or peak-to-peak for a voltage that
+    /// names one, `None` for a plain voltage (and for a fraction of full
+    /// scale, which is a peak figure).
+    pub fn form(&self) -> Option<AmplitudeForm> {
+        match self {
+            ErrorLimit::Volts(limit) => limit.form,
+            ErrorLimit::OfFullScale { .. } => None,
         }
     }
 }
@@ -180,8 +216,13 @@ impl ErrorLimit {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Judgement {
-    /// The sum of the magnitudes of all contributions (an upper bound).
+    /// The sum of the magnitudes of all contributions: the linear bound,
+    /// an upper bound to first order and the default.
     WorstCase,
+    /// The exact solve at the worst sign corner (every toleranced value at
+    /// one end of its range), searched as `cmrr yield` searches it: no
+    /// larger than the linear bound where contributions are out of phase.
+    WorstCorner,
     /// Systematic part plus the root-sum-square of the random ones.
     Rss,
     /// The values as given, with no tolerance.
@@ -193,6 +234,7 @@ impl Judgement {
     pub fn label(self) -> &'static str {
         match self {
             Judgement::WorstCase => "worst case",
+            Judgement::WorstCorner => "worst corner",
             Judgement::Rss => "RSS",
             Judgement::Nominal => "nominal",
         }
@@ -249,5 +291,40 @@ mod tests {
             2.0 * 2f64.sqrt()
         );
         assert_eq!(rms.describe(), "1.00 V rms");
+    }
+
+    #[test]
+    fn issue_10_dc_error_is_its_own_rms_and_peak() {
+        // A constant's rms and peak are its magnitude; it has no
+        // peak-to-peak swing (common practice, no source).
+        let dc = Amplitude {
+            volts: 99.9e-6,
+            form: None,
+        };
+        assert_eq!(dc.in_form(Some(AmplitudeForm::Rms)), Some(99.9e-6));
+        assert_eq!(dc.in_form(Some(AmplitudeForm::Peak)), Some(99.9e-6));
+        assert_eq!(dc.in_form(Some(AmplitudeForm::PeakToPeak)), None);
+        let limit = ErrorLimit::Volts(Amplitude {
+            volts: 80e-6,
+            form: Some(AmplitudeForm::Rms),
+        });
+        let source = Amplitude {
+            volts: 2.5,
+            form: None,
+        };
+        assert_relative_eq!(limit.allowed_conversion(&source).unwrap(), 80e-6 / 2.5);
+        // A sine source against a peak-to-peak limit: through the peak.
+        let hum = Amplitude {
+            volts: 1.0,
+            form: Some(AmplitudeForm::Rms),
+        };
+        let pp = ErrorLimit::Volts(Amplitude {
+            volts: 1e-3,
+            form: Some(AmplitudeForm::PeakToPeak),
+        });
+        assert_relative_eq!(
+            pp.allowed_conversion(&hum).unwrap(),
+            1e-3 / (2.0 * 2f64.sqrt())
+        );
     }
 }

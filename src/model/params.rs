@@ -7,7 +7,7 @@
 //! fill a different slice: no stage is rebuilt, nothing is allocated per
 //! evaluation.
 
-use crate::quantity::{format_db, format_fraction, format_si, Dimension, SpreadShape};
+use crate::quantity::{format_db, format_fraction, format_quantity, Dimension, SpreadShape};
 
 /// Index of a parameter in [`Parameters`].
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -93,21 +93,16 @@ impl Parameter {
             }
             (Presentation::ReciprocalCmrr, _) => "ideal".to_string(),
             (Presentation::Value(dimension), variation) => {
-                let value = format_si(self.nominal, dimension.symbol());
+                let value = format_quantity(self.nominal, dimension);
                 match variation {
                     Variation::Relative { tolerance } => {
                         format!("{value} ±{}", format_fraction(tolerance))
                     }
                     Variation::SignedBound { magnitude } if self.nominal == 0.0 => {
-                        let bound = if dimension == Dimension::Fraction {
-                            format_fraction(magnitude)
-                        } else {
-                            format_si(magnitude, dimension.symbol())
-                        };
-                        format!("±{bound}, sign unknown")
+                        format!("±{}, sign unknown", format_quantity(magnitude, dimension))
                     }
                     Variation::SignedBound { magnitude } => {
-                        format!("{value} ±{}", format_si(magnitude, dimension.symbol()))
+                        format!("{value} ±{}", format_quantity(magnitude, dimension))
                     }
                     Variation::Fixed | Variation::Derived => value,
                 }

@@ -80,14 +80,17 @@ pub enum TrialCheck {
         /// The minimum, dB.
         min_db: f64,
     },
-    /// Error of source at `point` (amplitude `peak_v`) at most `limit_v`.
+    /// Error of interference source `source` at most its limit: the
+    /// conversion at `point` at most `max_conversion` (the limit over the
+    /// source's amplitude, in like forms; see
+    /// [`crate::model::ErrorLimit::allowed_conversion`]).
     MaximumError {
         /// Index into the run's frequencies.
         point: usize,
-        /// The source's peak common mode, V.
-        peak_v: f64,
-        /// The allowed peak error, V.
-        limit_v: f64,
+        /// Index of the source in the budget.
+        source: usize,
+        /// The largest |ε| the limit allows.
+        max_conversion: f64,
     },
 }
 
@@ -104,11 +107,11 @@ impl TrialCheck {
             },
             TrialCheck::MaximumError {
                 point,
-                peak_v,
-                limit_v,
+                max_conversion,
+                ..
             } => SquaredBound {
                 point,
-                max_squared: (limit_v / peak_v).powi(2),
+                max_squared: max_conversion.powi(2),
             },
         }
     }

@@ -59,6 +59,32 @@ fn three_significant(mantissa: f64) -> String {
     format!("{mantissa:.decimals$}")
 }
 
+/// Format a value of `dimension` as the budget file would write it: a
+/// fraction as `%` or `ppm`, a temperature coefficient (1/K inside the
+/// program) in `ppm/K` with three significant digits, anything else with
+/// an SI prefix and its unit.
+pub fn format_quantity(value: f64, dimension: super::Dimension) -> String {
+    use super::Dimension;
+    match dimension {
+        Dimension::Fraction => format_fraction(value),
+        Dimension::TemperatureCoefficient => {
+            if value == 0.0 {
+                "0 ppm/K".to_string()
+            } else {
+                format!("{} ppm/K", significant(value * 1e6))
+            }
+        }
+        other => format_si(value, other.symbol()),
+    }
+}
+
+/// Three significant digits, in plain form.
+fn significant(value: f64) -> String {
+    let magnitude = value.abs();
+    let digits = (2 - magnitude.log10().floor() as i32).max(0) as usize;
+    format!("{value:.digits$}")
+}
+
 /// Format a decibel figure with one decimal, `∞ dB` for an infinite ratio.
 pub fn format_db(db: f64) -> String {
     if db.is_infinite() && db > 0.0 {
@@ -123,6 +149,25 @@ fn trim_number(value: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn issue_10_temperature_coefficients_print_in_ppm_per_kelvin() {
+        use crate::quantity::Dimension;
+        assert_eq!(
+            format_quantity(25e-6, Dimension::TemperatureCoefficient),
+            "25.0 ppm/K"
+        );
+        assert_eq!(
+            format_quantity(2e-6, Dimension::TemperatureCoefficient),
+            "2.00 ppm/K"
+        );
+        assert_eq!(
+            format_quantity(49.99999999999999e-6, Dimension::TemperatureCoefficient),
+            "50.0 ppm/K"
+        );
+        assert_eq!(format_quantity(1e-3, Dimension::Fraction), "0.1 %");
+        assert_eq!(format_quantity(10e3, Dimension::Resistance), "10.0 kΩ");
+    }
 
     #[test]
     fn shares_never_round_to_all_or_none() {

@@ -2,8 +2,9 @@
 //! design's total CMRR, error, margin and dominant contributor, in the
 //! order the designs were given.
 
-use super::{Db, Report, SCHEMA_VERSION};
-use crate::model::describe_volts;
+use super::table::celsius;
+use super::{Db, Render, Report, Status, SCHEMA_VERSION};
+use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_si, AmplitudeForm};
 use serde::Serialize;
 use tabled::builder::Builder;
@@ -18,14 +19,22 @@ pub struct Design {
     pub label: String,
     /// The budget file.
     pub file: String,
+    /// Its verdict: met, missed, does not hold (headroom) or no
+    /// requirement.
+    pub status: Status,
 }
 
-/// One design's figures for one source.
+/// One design's figures for one source: the figure its verdict judges,
+/// at the temperature where it is worst, beside the margin judged on it.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct DesignFigures {
-    /// Worst-case CMRR.
+    /// The total judged (worst case unless the budget says otherwise).
+    pub judged_on: Judgement,
+    /// Where it is worst, kelvin; null at the reference temperature.
+    pub temperature_k: Option<f64>,
+    /// The judged CMRR.
     pub cmrr_db: Db,
-    /// Worst-case error referred to the input, volts in `amplitude_form`.
+    /// The judged error referred to the input, volts in `amplitude_form`.
     pub error_rti_v: f64,
     /// `rms`, `peak`, `peak_to_peak`, or null for DC.
     pub amplitude_form: Option<AmplitudeForm>,
@@ -78,6 +87,7 @@ pub fn design_labels(reports: &[(String, &Report)]) -> Vec<Design> {
                     report.budget.clone()
                 },
                 file: file.clone(),
+                status: report.verdict.status,
             }
         })
         .collect()
@@ -87,14 +97,17 @@ pub fn design_labels(reports: &[(String, &Report)]) -> Vec<Design> {
 pub fn build_compare_report(reports: &[(String, &Report)]) -> CompareReport {
     let mut rows: Vec<CompareRow> = Vec::new();
     for (index, (_, report)) in reports.iter().enumerate() {
-        for result in &report.results {
+        let points = report.judged_points();
+        for (result, point) in report.results.iter().zip(&points) {
             let figures = DesignFigures {
-                cmrr_db: result.cmrr_db.worst_case,
-                error_rti_v: result.error_rti_v.worst_case,
+                judged_on: result.judged.on,
+                temperature_k: result.judged.temperature_k,
+                cmrr_db: result.judged.cmrr_db,
+                error_rti_v: result.judged.error_rti_v.unwrap_or(0.0),
                 amplitude_form: result.amplitude_form,
                 margin_db: result.requirement.as_ref().map(|r| r.margin_db),
                 met: result.requirement.as_ref().map(|r| r.met),
-                dominant: result
+                dominant: point
                     .contributions
                     .first()
                     .map(|c| format!("{} ({})", c.name, c.stage)),
@@ -127,13 +140,22 @@ pub fn build_compare_report(reports: &[(String, &Report)]) -> CompareReport {
 
 /// The comparison as terminal tables, one per source.
 pub fn render_compare_table(report: &CompareReport) -> String {
-    let mut out = String::from("CMRR comparison\n");
+    let mut out = String::from(
+        "CMRR comparison: each design's judged figure, at the temperature where it is worst\n",
+    );
     for (i, design) in report.designs.iter().enumerate() {
         out.push_str(&format!(
-            "  {}. {} ({})\n",
+            "  {}. {} ({}): {}\n",
             i + 1,
             design.label,
-            design.file
+            design.file,
+            match design.status {
+                Status::Met => "requirement met",
+                Status::Missed => "requirement MISSED",
+                Status::DoesNotHold =>
+                    "DOES NOT HOLD: a node leaves its range (headroom), the figures do not apply",
+                Status::NoRequirement => "no requirement stated",
+            }
         ));
     }
     for row in &report.rows {
@@ -146,8 +168,9 @@ pub fn render_compare_table(report: &CompareReport) -> String {
         let mut table = Builder::default();
         table.push_record([
             "design",
-            "CMRR (worst case)",
-            "error RTI (worst case)",
+            "judged on",
+            "CMRR",
+            "error RTI",
             "margin",
             "dominant contributor",
         ]);
@@ -155,17 +178,24 @@ pub fn render_compare_table(report: &CompareReport) -> String {
             match figures {
                 Some(f) => table.push_record([
                     design.label.clone(),
+                    format!(
+                        "{}, {}",
+                        f.judged_on.label(),
+                        f.temperature_k.map_or("reference".into(), celsius)
+                    ),
                     format_db(f.cmrr_db.0),
                     describe_volts(f.error_rti_v, f.amplitude_form),
-                    match (f.margin_db, f.met) {
-                        (Some(m), Some(true)) => format!("met by {}", format_db(m.0)),
-                        (Some(m), _) => format!("MISSED by {}", format_db(-m.0)),
+                    match (f.margin_db, f.met, design.status) {
+                        (_, _, Status::DoesNotHold) => "does not hold (headroom)".into(),
+                        (Some(m), Some(true), _) => format!("met by {}", format_db(m.0)),
+                        (Some(m), _, _) => format!("MISSED by {}", format_db(-m.0)),
                         _ => "no requirement".into(),
                     },
                     f.dominant.clone().unwrap_or_else(|| "none".into()),
                 ]),
                 None => table.push_record([
                     design.label.clone(),
+                    "—".into(),
                     "—".into(),
                     "—".into(),
                     "no such source".into(),
@@ -176,7 +206,7 @@ pub fn render_compare_table(report: &CompareReport) -> String {
         let mut table = table.build();
         table
             .with(Style::rounded())
-            .modify(Columns::new(1..3), Alignment::right());
+            .modify(Columns::new(2..4), Alignment::right());
         out.push_str(&table.to_string());
         out.push('\n');
     }
@@ -186,7 +216,7 @@ pub fn render_compare_table(report: &CompareReport) -> String {
 /// The comparison as CSV: one row per source and design.
 pub fn render_compare_csv(report: &CompareReport) -> String {
     let mut out = String::from(
-        "source,frequency_hz,design,cmrr_db,error_rti_v,amplitude_form,margin_db,met,dominant\n",
+        "source,frequency_hz,design,status,judged_on,temperature_k,cmrr_db,error_rti_v,amplitude_form,margin_db,met,dominant\n",
     );
     for row in &report.rows {
         for (design, figures) in report.designs.iter().zip(&row.designs) {
@@ -195,6 +225,9 @@ pub fn render_compare_csv(report: &CompareReport) -> String {
                 super::csv::escape(&row.source),
                 format!("{}", row.frequency_hz),
                 super::csv::escape(&design.label),
+                status_name(design.status).to_string(),
+                f.judged_on.label().replace(' ', "_"),
+                f.temperature_k.map(super::csv::number).unwrap_or_default(),
                 super::csv::db(f.cmrr_db),
                 format!("{}", f.error_rti_v),
                 f.amplitude_form
@@ -208,4 +241,24 @@ pub fn render_compare_csv(report: &CompareReport) -> String {
         }
     }
     out
+}
+
+/// A verdict status as JSON and CSV name it.
+pub(crate) fn status_name(status: Status) -> &'static str {
+    match status {
+        Status::Met => "met",
+        Status::Missed => "missed",
+        Status::DoesNotHold => "does_not_hold",
+        Status::NoRequirement => "no_requirement",
+    }
+}
+
+impl Render for CompareReport {
+    fn table(&self) -> String {
+        render_compare_table(self)
+    }
+
+    fn csv(&self) -> String {
+        render_compare_csv(self)
+    }
 }

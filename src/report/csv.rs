@@ -76,6 +76,11 @@ fn write_rows(
             cmrr.worst_case,
             errors.map(|(rti, rto)| (rti.worst_case, rto.worst_case)),
         ),
+        (
+            "worst corner",
+            cmrr.worst_corner,
+            errors.map(|(rti, rto)| (rti.worst_corner, rto.worst_corner)),
+        ),
         ("rss", cmrr.rss, errors.map(|(rti, rto)| (rti.rss, rto.rss))),
         (
             "nominal",
@@ -109,7 +114,7 @@ fn push_line(out: &mut String, lead: &[String; 4], fields: &[String; 9]) {
     out.push('\n');
 }
 
-fn number(value: f64) -> String {
+pub(crate) fn number(value: f64) -> String {
     format!("{value}")
 }
 

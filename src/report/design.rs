@@ -1,7 +1,8 @@
 //! Reports of the design commands: sizing, what must change, and trimming.
 
-use super::SCHEMA_VERSION;
-use crate::design::{AllocationTable, Sensitivity, Sizing};
+use super::csv::{escape, number};
+use super::{Render, SCHEMA_VERSION};
+use crate::design::{AllocationTable, Sensitivity, Sizing, TrimRow};
 use crate::quantity::{format_db, format_share, format_si};
 use serde::Serialize;
 use tabled::builder::Builder;
@@ -98,8 +99,9 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
     }
     for table in &report.allocation {
         out.push_str(&format!(
-            "\n{}: the requirement allows {} for all contributors together; each gets an equal share\n",
+            "\n{} ({}): the requirement allows {} for all contributors together; each gets an equal share of the worst-case sum\n",
             table.at,
+            table.temperature_k.map_or("reference temperature".into(), super::table::celsius),
             format_db(table.allowed_db)
         ));
         let mut builder = Builder::default();
@@ -129,49 +131,49 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
         out.push('\n');
     }
     out.push_str(
-        "\nworst-case CMRR gained when one spread halves (largest at the tightest source first)\n",
+        "\nCMRR gained when one spread halves, as the requirement judges it (its total, at the temperature where it is worst; largest at the tightest source first)\n",
     );
     let mut builder = Builder::default();
-    let with_yield = report.sensitivity.iter().any(|r| r.yield_gain.is_some());
+    let with_yield = report
+        .sensitivity
+        .iter()
+        .any(|r| r.yield_gain_points.is_some());
     let mut header = vec!["parameter".to_string(), "stage".into(), "value".into()];
     header.extend(report.sources.iter().cloned());
     if with_yield {
-        header.push("yield gained".into());
+        header.push("yield gained (percentage points)".into());
     }
     builder.push_record(header);
     let worth_showing = |r: &&Sensitivity| {
-        r.gain_db.iter().any(|g| *g > 0.005) || r.yield_gain.is_some_and(|y| y > 0.0)
+        r.gain_db.iter().any(|g| *g > 0.005) || r.yield_gain_points.is_some_and(|y| y > 0.0)
     };
-    for row in report.sensitivity.iter().filter(worth_showing).take(15) {
+    let shown: Vec<&Sensitivity> = report.sensitivity.iter().filter(worth_showing).collect();
+    for row in shown.iter().take(SENSITIVITY_ROWS) {
         let mut record = vec![row.parameter.clone(), row.stage.clone(), row.value.clone()];
         record.extend(row.gain_db.iter().map(|g| format!("+{g:.2} dB")));
         if with_yield {
             record.push(
-                row.yield_gain
-                    .map_or("—".into(), |y| format!("{:+.2} %", y * 100.0)),
+                row.yield_gain_points
+                    .map_or("—".into(), |y| format!("{y:+.2} points")),
             );
         }
         builder.push_record(record);
     }
     out.push_str(&styled(builder, 3));
     out.push('\n');
+    let hidden = report.sensitivity.len() - shown.len().min(SENSITIVITY_ROWS);
+    if hidden > 0 {
+        out.push_str(&format!(
+            "{} of {} parameters shown: the rest gain less than 0.01 dB or fall below the first {SENSITIVITY_ROWS}; all are in the JSON and CSV\n",
+            shown.len().min(SENSITIVITY_ROWS),
+            report.sensitivity.len()
+        ));
+    }
     out
 }
 
-/// One source before and after a trim.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct TrimRow {
-    /// The source.
-    pub source: String,
-    /// Its frequency, Hz.
-    pub frequency_hz: f64,
-    /// Worst-case CMRR as built, dB.
-    pub before_db: f64,
-    /// Worst-case CMRR after the trim, at the reference temperature, dB.
-    pub after_db: f64,
-    /// After the trim, at the worse end of the temperature range, dB.
-    pub after_over_temperature_db: Option<f64>,
-}
+/// How many rows the halving table prints.
+const SENSITIVITY_ROWS: usize = 15;
 
 /// `cmrr trim` as JSON.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -184,6 +186,8 @@ pub struct TrimReport {
     pub stage: String,
     /// The trim's resolution as a ratio error.
     pub resolution: f64,
+    /// The total compared (the requirement's, worst case by default).
+    pub judged_on: crate::model::Judgement,
     /// Per interference source.
     pub rows: Vec<TrimRow>,
 }
@@ -197,12 +201,13 @@ pub fn render_trim_table(report: &TrimReport) -> String {
         report.budget
     );
     let mut builder = Builder::default();
+    let judged = report.judged_on.label();
     builder.push_record([
-        "source",
-        "frequency",
-        "as built",
-        "trimmed",
-        "trimmed, over temperature",
+        "source".to_string(),
+        "frequency".into(),
+        format!("as built ({judged}, reference)"),
+        format!("trimmed ({judged}, reference)"),
+        format!("trimmed ({judged}, worse end of the range)"),
     ]);
     for row in &report.rows {
         builder.push_record([
@@ -249,12 +254,124 @@ pub fn improve_report(
 }
 
 /// Assemble `cmrr trim`'s report.
-pub fn trim_report(budget: &str, stage: &str, resolution: f64, rows: Vec<TrimRow>) -> TrimReport {
+pub fn trim_report(
+    budget: &str,
+    stage: &str,
+    resolution: f64,
+    judged_on: crate::model::Judgement,
+    rows: Vec<TrimRow>,
+) -> TrimReport {
     TrimReport {
         schema_version: SCHEMA_VERSION,
         budget: budget.into(),
         stage: stage.into(),
         resolution,
+        judged_on,
         rows,
+    }
+}
+
+impl Render for SizingReport {
+    fn table(&self) -> String {
+        render_sizing_table(self)
+    }
+
+    /// One row per setting tried.
+    fn csv(&self) -> String {
+        let mut out = String::from("setting,label,meets,holds,margin_db,yield,answer\n");
+        let answer = self.sizing.answer.as_ref().map(|a| a.setting);
+        for step in &self.sizing.steps {
+            let fields = [
+                number(step.setting),
+                escape(&step.label),
+                step.meets.to_string(),
+                step.holds.to_string(),
+                step.margin_db
+                    .map(|m| format!("{m:.6}"))
+                    .unwrap_or_default(),
+                step.yield_fraction.map(number).unwrap_or_default(),
+                (answer == Some(step.setting)).to_string(),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+        out
+    }
+}
+
+impl Render for ImproveReport {
+    fn table(&self) -> String {
+        render_improve_table(self)
+    }
+
+    /// The allocation rows, then the halving rows (one per parameter and
+    /// source).
+    fn csv(&self) -> String {
+        let mut out = String::from("table,at,temperature_k,contributor,stage,value,cmrr_db,allowance_db,must_improve_db,gain_db,yield_gain_points\n");
+        for table in &self.allocation {
+            for row in &table.rows {
+                let fields = [
+                    "allocation".to_string(),
+                    escape(&table.at),
+                    table.temperature_k.map(number).unwrap_or_default(),
+                    escape(&row.contributor),
+                    escape(&row.stage),
+                    escape(&row.value),
+                    format!("{:.6}", row.cmrr_db),
+                    format!("{:.6}", row.allowance_db),
+                    format!("{:.6}", row.must_improve_db),
+                    String::new(),
+                    String::new(),
+                ];
+                out.push_str(&fields.join(","));
+                out.push('\n');
+            }
+        }
+        for row in &self.sensitivity {
+            for (source, gain) in self.sources.iter().zip(&row.gain_db) {
+                let fields = [
+                    "halving".to_string(),
+                    escape(source),
+                    String::new(),
+                    escape(&row.parameter),
+                    escape(&row.stage),
+                    escape(&row.value),
+                    String::new(),
+                    String::new(),
+                    String::new(),
+                    format!("{gain:.6}"),
+                    row.yield_gain_points.map(number).unwrap_or_default(),
+                ];
+                out.push_str(&fields.join(","));
+                out.push('\n');
+            }
+        }
+        out
+    }
+}
+
+impl Render for TrimReport {
+    fn table(&self) -> String {
+        render_trim_table(self)
+    }
+
+    /// One row per interference source.
+    fn csv(&self) -> String {
+        let mut out = String::from("source,frequency_hz,judged_on,before_cmrr_db,after_cmrr_db,after_over_temperature_cmrr_db\n");
+        for row in &self.rows {
+            let fields = [
+                escape(&row.source),
+                number(row.frequency_hz),
+                self.judged_on.label().replace(' ', "_"),
+                super::csv::db(super::Db(row.before_db)),
+                super::csv::db(super::Db(row.after_db)),
+                row.after_over_temperature_db
+                    .map(|d| super::csv::db(super::Db(d)))
+                    .unwrap_or_default(),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+        out
     }
 }

@@ -2,8 +2,7 @@
 //! exact values at the required and interference frequencies, and where the
 //! dominant contributor changes; rendered as a table, CSV, JSON or a plot.
 
-use super::{Db, Totals, SCHEMA_VERSION};
-use crate::engine::{analyse_point_at, EngineError};
+use super::{Db, Render, Report, Totals, SCHEMA_VERSION};
 use crate::model::Budget;
 use crate::plot::{plot_sweep, text_chart, PlotError, MAX_CONTRIBUTOR_CURVES};
 use crate::quantity::{format_db, format_si};
@@ -19,11 +18,23 @@ pub struct SweepRow {
     /// The frequency, Hz.
     pub frequency_hz: f64,
     /// The chain's CMRR.
-    pub cmrr_db: Totals<Db>,
+    pub cmrr_db: SweepTotals,
     /// Each contributor's CMRR alone, in `contributors` order.
     pub contributors_cmrr_db: Vec<Db>,
     /// The largest contributor here, `name (stage)`; null when none.
     pub dominant: Option<String>,
+}
+
+/// The totals at a swept frequency: the linear bound, RSS and nominal (the
+/// exact worst corner is searched only at the points the verdict judges).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct SweepTotals {
+    /// The linear bound.
+    pub worst_case: Db,
+    /// Systematic part plus the root-sum-square of the random parts.
+    pub rss: Db,
+    /// Values as given.
+    pub nominal: Db,
 }
 
 /// A required minimum and what the chain achieves exactly there.
@@ -33,8 +44,16 @@ pub struct RequiredPoint {
     pub frequency_hz: f64,
     /// The required minimum CMRR, dB.
     pub required_db: Db,
-    /// The chain's CMRR there (worst case, RSS, nominal), solved exactly.
+    /// The chain's CMRR there (as the verdict judges it, at the sweep's
+    /// temperature).
     pub cmrr_db: Totals<Db>,
+    /// Which total the requirement is judged on.
+    pub judged_on: crate::model::Judgement,
+    /// The margin of that total over the minimum at the sweep's
+    /// temperature, dB.
+    pub margin_db: Db,
+    /// Whether the minimum is met at the sweep's temperature.
+    pub met: bool,
 }
 
 /// An interference source and the chain's CMRR at its frequency.
@@ -75,26 +94,53 @@ pub struct SweepReport {
     pub dominant_changes: Vec<DominantChange>,
 }
 
-fn totals_db(worst_case: f64, rss: f64, nominal: f64) -> Totals<Db> {
-    Totals {
+fn totals_db(worst_case: f64, rss: f64, nominal: f64) -> SweepTotals {
+    SweepTotals {
         worst_case: Db::from_conversion(worst_case),
         rss: Db::from_conversion(rss),
         nominal: Db::from_conversion(nominal),
     }
 }
 
-fn exact_totals(budget: &Budget, freq: f64, delta_t: f64) -> Result<Totals<Db>, EngineError> {
-    let a = analyse_point_at(budget, freq, delta_t)?;
-    Ok(totals_db(a.worst_case(), a.rss(), a.nominal_magnitude()))
+/// The verdict's check of a minimum CMRR of `minimum_db` at `freq`.
+fn minimum_check(verdict: &Report, freq: f64, minimum_db: f64) -> Option<&crate::verdict::Check> {
+    verdict
+        .judged_points()
+        .into_iter()
+        .filter(|p| crate::verdict::same_frequency(p.frequency_hz, freq))
+        .flat_map(|p| p.requirement.into_iter().flat_map(|o| o.checks.iter()))
+        .find(|c| {
+            matches!(c.kind, crate::verdict::CheckKind::MinimumCmrr { minimum_db: m } if m.0 == minimum_db)
+        })
+}
+
+/// The verdict's totals at `freq`.
+fn judged_totals(verdict: &Report, freq: f64) -> Option<Totals<Db>> {
+    let same = |f: f64| crate::verdict::same_frequency(f, freq);
+    verdict
+        .results
+        .iter()
+        .find(|r| same(r.frequency_hz))
+        .map(|r| r.cmrr_db)
+        .or_else(|| {
+            verdict
+                .frequencies
+                .iter()
+                .find(|f| same(f.frequency_hz))
+                .map(|f| f.cmrr_db)
+        })
 }
 
 /// Assemble the report of a finished sweep, run `delta_t` kelvin from the
-/// reference temperature.
+/// reference temperature, with the exact figures at the required and
+/// interference frequencies taken from `verdict` (judged at the same
+/// temperature).
 pub fn build_sweep_report(
     budget: &Budget,
     sweep: &Sweep,
     delta_t: f64,
-) -> Result<SweepReport, EngineError> {
+    verdict: &Report,
+) -> SweepReport {
     let points = sweep
         .points
         .iter()
@@ -113,26 +159,31 @@ pub fn build_sweep_report(
         .requirement
         .iter()
         .flat_map(|r| r.min_cmrr.iter())
-        .map(|m| {
-            Ok(RequiredPoint {
+        .filter_map(|m| {
+            let judged_on = budget.requirement.as_ref()?.judged_on;
+            let check = minimum_check(verdict, m.frequency_hz, m.cmrr_db)?;
+            Some(RequiredPoint {
                 frequency_hz: m.frequency_hz,
                 required_db: Db(m.cmrr_db),
-                cmrr_db: exact_totals(budget, m.frequency_hz, delta_t)?,
+                cmrr_db: judged_totals(verdict, m.frequency_hz)?,
+                judged_on,
+                margin_db: check.margin_db,
+                met: check.met,
             })
         })
-        .collect::<Result<Vec<_>, EngineError>>()?;
+        .collect();
     let interference = budget
         .interference
         .iter()
-        .map(|s| {
-            Ok(InterferencePoint {
+        .filter_map(|s| {
+            Some(InterferencePoint {
                 source: s.name.clone(),
                 frequency_hz: s.frequency_hz,
-                cmrr_db: exact_totals(budget, s.frequency_hz, delta_t)?,
+                cmrr_db: judged_totals(verdict, s.frequency_hz)?,
             })
         })
-        .collect::<Result<Vec<_>, EngineError>>()?;
-    Ok(SweepReport {
+        .collect();
+    SweepReport {
         schema_version: SCHEMA_VERSION,
         budget: budget.name.clone(),
         from_hz: sweep.spec.from_hz,
@@ -147,7 +198,17 @@ pub fn build_sweep_report(
         required,
         interference,
         dominant_changes: sweep.dominant_changes(),
-    })
+    }
+}
+
+impl Render for SweepReport {
+    fn table(&self) -> String {
+        render_sweep_table(self)
+    }
+
+    fn csv(&self) -> String {
+        render_sweep_csv(self)
+    }
 }
 
 /// The sweep as a terminal table, with the exact points and changes after.
@@ -209,21 +270,23 @@ fn exact_lines(report: &SweepReport) -> String {
     }
     for point in &report.interference {
         out.push_str(&format!(
-            "at {} ({}): worst case {}, RSS {}\n",
+            "at {} ({}): worst case {}, worst corner {}, RSS {}\n",
             frequency_text(point.frequency_hz),
             point.source,
             format_db(point.cmrr_db.worst_case.0),
+            format_db(point.cmrr_db.worst_corner.0),
             format_db(point.cmrr_db.rss.0)
         ));
     }
     for point in &report.required {
-        let met = point.cmrr_db.worst_case.0 >= point.required_db.0;
         out.push_str(&format!(
-            "required at {}: ≥ {}, worst case {} ({})\n",
+            "required at {}: ≥ {}, {} {} at this temperature ({} by {})\n",
             format_si(point.frequency_hz, "Hz"),
             format_db(point.required_db.0),
-            format_db(point.cmrr_db.worst_case.0),
-            if met { "met" } else { "MISSED" }
+            point.judged_on.label(),
+            format_db(point.cmrr_db.judged(point.judged_on).0),
+            if point.met { "met" } else { "MISSED" },
+            format_db(point.margin_db.0.abs())
         ));
     }
     out

@@ -2,11 +2,12 @@
 //! a totals table, then the requirement and the verdict.
 
 use super::{
-    ContributionRow, Corner, Db, FrequencyResult, Report, RequirementOutcome, SourceResult,
-    TemperatureResult,
+    ContributionRow, Corner, FrequencyResult, JudgedFigure, Report, RequirementOutcome,
+    SourceResult, Status, TemperatureResult,
 };
-use crate::model::{describe_volts, Judgement};
+use crate::model::describe_volts;
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
+use crate::verdict::TOTALS;
 use tabled::builder::Builder;
 use tabled::settings::object::Columns;
 use tabled::settings::{Alignment, Style};
@@ -19,21 +20,7 @@ pub fn render_table(report: &Report) -> String {
         out.push_str(&format!("\n{caution}\n"));
     }
     for finding in &report.headroom {
-        let allowed = match finding.allowed_high_v {
-            Some(high) => format!(
-                "{} to {}",
-                format_si(finding.allowed_low_v, "V"),
-                format_si(high, "V")
-            ),
-            None => format!("at least {}", format_si(finding.allowed_low_v, "V")),
-        };
-        out.push_str(&format!(
-            "\nWARNING (headroom): {}, {} spans {} to {}, outside its range ({allowed}); the CMRR figures below assume linear operation and do not hold\n",
-            finding.stage,
-            finding.node,
-            format_si(finding.low_v, "V"),
-            format_si(finding.high_v, "V"),
-        ));
+        out.push_str(&format!("\n{}\n", headroom_warning(finding)));
     }
     for remark in &report.remarks {
         out.push_str(&format!("note: {remark}\n"));
@@ -69,7 +56,7 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
     let mut totals = Builder::default();
     let mut header = vec!["total", "CMRR", "error RTI", "error RTO"];
     if result.error_fs_ppm.is_some() {
-        header.push("error of full scale");
+        header.push("peak error of full scale");
     }
     if result.error_lsb.is_some() {
         header.push("error (codes)");
@@ -109,7 +96,7 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
         &result.corner,
         result.at_temperature.as_ref(),
         form,
-        result.requirement.as_ref(),
+        (&result.judged, result.requirement.as_ref()),
     ));
     out
 }
@@ -127,7 +114,7 @@ fn plain_number(value: f64) -> String {
 }
 
 /// A temperature in degrees Celsius.
-fn celsius(kelvin: f64) -> String {
+pub(crate) fn celsius(kelvin: f64) -> String {
     format!("{:.1} °C", kelvin - 273.15)
 }
 
@@ -135,9 +122,10 @@ fn celsius(kelvin: f64) -> String {
 /// contributors.
 fn temperature_lines(result: &TemperatureResult, form: Option<AmplitudeForm>) -> String {
     let mut out = format!(
-        "at {} (the worse end of the temperature range): CMRR worst case {}, RSS {}",
+        "at {} (the worse end of the temperature range): CMRR worst case {}, worst corner {}, RSS {}",
         celsius(result.temperature_k),
         format_db(result.cmrr_db.worst_case.0),
+        format_db(result.cmrr_db.worst_corner.0),
         format_db(result.cmrr_db.rss.0),
     );
     if let Some(error) = &result.error_rti_v {
@@ -190,13 +178,10 @@ fn frequency_section(result: &FrequencyResult) -> String {
         &result.corner,
         result.at_temperature.as_ref(),
         None,
-        result.requirement.as_ref(),
+        (&result.judged, result.requirement.as_ref()),
     ));
     out
 }
-
-/// The totals, in the order they are printed.
-const TOTALS: [Judgement; 3] = [Judgement::WorstCase, Judgement::Rss, Judgement::Nominal];
 
 fn frequency_text(freq_hz: f64) -> String {
     if freq_hz == 0.0 {
@@ -221,7 +206,7 @@ fn contribution_table(rows: &[ContributionRow], form: Option<AmplitudeForm>) -> 
     if with_error {
         header.push("error RTI");
     }
-    header.push("share");
+    header.push("share of worst case");
     table.push_record(header);
     for row in rows {
         let mut record = vec![
@@ -261,32 +246,49 @@ fn section_end(
     corner: &Corner,
     at_temperature: Option<&TemperatureResult>,
     form: Option<AmplitudeForm>,
-    requirement: Option<&RequirementOutcome>,
+    (judged, requirement): (&JudgedFigure, Option<&RequirementOutcome>),
 ) -> String {
     let mut out = styled(totals, 1);
     out.push('\n');
-    out.push_str(&corner_line(corner.cmrr_db, corner.interaction_share));
+    out.push_str(&corner_lines(corner));
     if let Some(result) = at_temperature {
         out.push_str(&temperature_lines(result, form));
     }
     if let Some(outcome) = requirement {
-        out.push_str(&requirement_lines(outcome));
+        out.push_str(&requirement_lines(outcome, judged));
     }
     out
 }
 
-fn corner_line(cmrr: Db, interaction_share: f64) -> String {
-    format!(
-        "exact solve at the worst-case corner: CMRR {}; interaction {:.2} % of the worst case\n",
-        format_db(cmrr.0),
-        interaction_share * 100.0
-    )
+fn corner_lines(corner: &Corner) -> String {
+    let mut out = format!(
+        "worst corner ({} search, {} corners solved): CMRR {} against the linear bound's {}; interaction {:.2} % of the worst case\n",
+        corner.search,
+        corner.corners_solved,
+        format_db(corner.cmrr_db.0),
+        format_db(corner.linear_bound_db.0),
+        corner.interaction_share * 100.0
+    );
+    if let Some(why) = &corner.why_they_differ {
+        out.push_str(&format!("  {why}\n"));
+    }
+    out
 }
 
-fn requirement_lines(outcome: &RequirementOutcome) -> String {
+/// Where a judged figure sits.
+pub(crate) fn judged_at(judged: &JudgedFigure) -> String {
+    match judged.temperature_k {
+        Some(k) => format!("at {}", celsius(k)),
+        None => "at the reference temperature".to_string(),
+    }
+}
+
+fn requirement_lines(outcome: &RequirementOutcome, judged: &JudgedFigure) -> String {
     let mut out = format!(
-        "requirement (judged on {}): {}, margin {}\n",
+        "requirement (judged on {}, {}: CMRR {}): {}, margin {}\n",
         outcome.judged_on.label(),
+        judged_at(judged),
+        format_db(judged.cmrr_db.0),
         if outcome.met { "met" } else { "MISSED" },
         format_db(outcome.margin_db.0)
     );
@@ -302,16 +304,46 @@ fn requirement_lines(outcome: &RequirementOutcome) -> String {
     out
 }
 
-fn verdict_line(report: &Report) -> String {
-    match (report.verdict.met, report.verdict.margin_db) {
-        (Some(true), Some(margin)) => format!(
-            "verdict: requirement met; smallest margin {}\n",
+/// The verdict in one line, as every command prints it.
+pub fn verdict_line(report: &Report) -> String {
+    let verdict = &report.verdict;
+    let at = verdict
+        .tightest
+        .as_deref()
+        .map_or(String::new(), |t| format!(" ({t})"));
+    match (verdict.status, verdict.margin_db) {
+        (Status::DoesNotHold, _) => format!(
+            "verdict: DOES NOT HOLD: {} node(s) leave their range (see the headroom warnings), so the small-signal figures do not apply{}\n",
+            report.headroom.len(),
+            verdict.margin_db.map_or(String::new(), |m| format!("; the smallest margin would be {}{at}", format_db(m.0)))
+        ),
+        (Status::Met, Some(margin)) => format!(
+            "verdict: requirement met; smallest margin {}{at}\n",
             format_db(margin.0)
         ),
-        (Some(false), Some(margin)) => format!(
-            "verdict: requirement MISSED; worst shortfall {}\n",
+        (Status::Missed, Some(margin)) => format!(
+            "verdict: requirement MISSED; worst shortfall {}{at}\n",
             format_db(-margin.0)
         ),
         _ => "verdict: no requirement stated\n".to_string(),
     }
+}
+
+/// A headroom finding as a warning line.
+pub fn headroom_warning(finding: &crate::engine::HeadroomFinding) -> String {
+    let allowed = match finding.allowed_high_v {
+        Some(high) => format!(
+            "{} to {}",
+            format_si(finding.allowed_low_v, "V"),
+            format_si(high, "V")
+        ),
+        None => format!("at least {}", format_si(finding.allowed_low_v, "V")),
+    };
+    format!(
+        "WARNING (headroom): {}, {} spans {} to {}, outside its range ({allowed}); the CMRR figures assume linear operation and do not hold",
+        finding.stage,
+        finding.node,
+        format_si(finding.low_v, "V"),
+        format_si(finding.high_v, "V"),
+    )
 }

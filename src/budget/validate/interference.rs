@@ -150,6 +150,7 @@ impl Validator<'_> {
         Some(Requirement {
             judged_on: match raw.judged_on.unwrap_or(RawJudgement::WorstCase) {
                 RawJudgement::WorstCase => Judgement::WorstCase,
+                RawJudgement::WorstCorner => Judgement::WorstCorner,
                 RawJudgement::Rss => Judgement::Rss,
                 RawJudgement::Nominal => Judgement::Nominal,
             },
@@ -193,6 +194,17 @@ impl Validator<'_> {
                     if limit.form.is_none() && source.frequency_hz > 0.0 =>
                 {
                     self.problem(&path, format!("the allowed error has no rms, peak or peak-to-peak form, but `{}` is alternating", source.name), "add the form, e.g. `1 uV rms` or `2 uV pp`");
+                }
+                Some(limit @ ErrorLimit::Volts(_))
+                    if limit.allowed_conversion(&source.amplitude).is_none() =>
+                {
+                    let fix = if own {
+                        "give the DC error as a plain voltage or rms/peak value, e.g. `50 uV`"
+                            .to_string()
+                    } else {
+                        format!("give `{}` its own `max_error` as a plain voltage (e.g. `max_error: 50 uV`); a DC error's rms and peak are its magnitude", source.name)
+                    };
+                    self.problem(&path, format!("a peak-to-peak limit means nothing for `{}`, a DC source: a constant error does not swing", source.name), fix);
                 }
                 _ => {}
             }

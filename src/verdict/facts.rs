@@ -6,7 +6,7 @@ use crate::quantity::{format_db, format_si, Dimension};
 use crate::stage::{OpAmp, Point, StageKind};
 
 /// How the budget was read where the file left something out.
-pub(super) fn remarks(budget: &Budget) -> Vec<String> {
+pub(crate) fn remarks(budget: &Budget) -> Vec<String> {
     let mut remarks = Vec::new();
     for stage in &budget.chain {
         let opamps: Vec<(&str, &OpAmp)> = match &stage.kind {
@@ -70,7 +70,7 @@ fn is_component(parameter: &Parameter) -> bool {
 
 /// Facts computed at nominal values and the reference temperature: gains,
 /// a pair's bias and tail, a converter's LSB.
-pub(super) fn facts(budget: &Budget) -> Vec<String> {
+pub(crate) fn facts(budget: &Budget) -> Vec<String> {
     let values = budget.parameters.nominal_values();
     let point = Point::new(0.0, &values);
     let mut facts = Vec::new();

@@ -1,7 +1,15 @@
 //! Requirement checks: minimum CMRR at a frequency, maximum error per
 //! source, and the outcome with its margin.
+//!
+//! An error check compares like with like. The error a source leaves has
+//! the source's own waveform (a constant for a DC source, a sinusoid at the
+//! source's frequency otherwise), so it is expressed in the limit's form
+//! before it is compared: a DC error's rms and peak are its magnitude; a
+//! sinusoid converts exactly (pk = √2 rms, pp = 2 pk); a fraction of full
+//! scale is compared with the error's peak. Validation refuses the one pair
+//! that means nothing, a peak-to-peak limit on a DC source.
 
-use super::{Check, Db, RequirementOutcome, Totals};
+use super::{Check, CheckKind, Db, RequirementOutcome};
 use crate::model::{describe_volts, Amplitude, ErrorLimit, Judgement, Requirement};
 use crate::quantity::{format_db, format_fraction, format_si};
 
@@ -9,7 +17,7 @@ use crate::quantity::{format_db, format_fraction, format_si};
 const SAME_FREQUENCY: f64 = 1e-9;
 
 /// Whether two frequencies are the same analysis point.
-pub(super) fn same_frequency(a: f64, b: f64) -> bool {
+pub(crate) fn same_frequency(a: f64, b: f64) -> bool {
     (a - b).abs() <= SAME_FREQUENCY * a.abs().max(b.abs()).max(1.0)
 }
 
@@ -40,16 +48,12 @@ pub(super) fn outcome(
 /// The total a requirement is judged on: as the requirement says, or the
 /// worst case when a source sets its own limit and there is no requirement
 /// section.
-pub(super) fn judged_on(requirement: Option<&Requirement>) -> Judgement {
+pub(crate) fn judged_on(requirement: Option<&Requirement>) -> Judgement {
     requirement.map_or(Judgement::WorstCase, |r| r.judged_on)
 }
 
-pub(super) fn cmrr_checks(
-    requirement: &Requirement,
-    freq: f64,
-    cmrr_db: &Totals<Db>,
-) -> Vec<Check> {
-    let achieved = cmrr_db.judged(requirement.judged_on);
+/// The minimum-CMRR checks at `freq`, against the judged CMRR.
+pub(super) fn cmrr_checks(requirement: &Requirement, freq: f64, achieved: Db) -> Vec<Check> {
     requirement
         .min_cmrr
         .iter()
@@ -57,6 +61,9 @@ pub(super) fn cmrr_checks(
         .map(|m| {
             let margin = Db(achieved.0 - m.cmrr_db);
             Check {
+                kind: CheckKind::MinimumCmrr {
+                    minimum_db: Db(m.cmrr_db),
+                },
                 limit: format!(
                     "CMRR ≥ {} at {}",
                     format_db(m.cmrr_db),
@@ -71,47 +78,60 @@ pub(super) fn cmrr_checks(
         .collect()
 }
 
-/// Compare an error (peak volts, referred to the input) with its limit,
-/// for a source of peak common mode `source_peak`.
-pub(super) fn error_check(limit: &ErrorLimit, error_peak: f64, source_peak: f64) -> Check {
-    let limit_peak = limit.peak_volts();
-    let margin = if error_peak == 0.0 {
+/// Compare the error that `source` leaves through a conversion of
+/// magnitude `conversion` with its limit, in the limit's form.
+pub(super) fn error_check(
+    name: &str,
+    limit: &ErrorLimit,
+    source: &Amplitude,
+    conversion: f64,
+) -> Check {
+    // Validation has refused the pairs of forms with no meaning, so the
+    // allowance exists; a NaN would fail the check rather than pass it.
+    let allowed = limit.allowed_conversion(source).unwrap_or(f64::NAN);
+    let margin = if conversion == 0.0 {
         Db(f64::INFINITY)
     } else {
-        Db(20.0 * (limit_peak / error_peak).log10())
+        Db(20.0 * (allowed / conversion).log10())
+    };
+    let error = Amplitude {
+        volts: conversion * source.volts,
+        form: source.form,
     };
     let (limit_text, achieved) = match limit {
-        ErrorLimit::Volts(amplitude) => {
-            let error = Amplitude {
-                volts: error_peak,
-                form: None,
-            }
-            .volts_in(amplitude.form);
-            (
-                format!("error RTI ≤ {}", amplitude.describe()),
-                format!("error RTI {}", describe_volts(error, amplitude.form)),
-            )
-        }
+        ErrorLimit::Volts(amplitude) => (
+            format!("error RTI ≤ {}", amplitude.describe()),
+            format!(
+                "error RTI {}",
+                describe_volts(
+                    error.in_form(amplitude.form).unwrap_or(f64::NAN),
+                    amplitude.form
+                )
+            ),
+        ),
         ErrorLimit::OfFullScale {
             fraction,
             full_scale_volts,
         } => (
             format!(
-                "error RTI ≤ {} of {} full scale",
+                "peak error RTI ≤ {} of {} full scale",
                 format_fraction(*fraction),
                 format_si(*full_scale_volts, "V")
             ),
             format!(
-                "error RTI {} of full scale",
-                format_fraction(error_peak / full_scale_volts)
+                "peak error RTI {} of full scale",
+                format_fraction(error.peak_volts() / full_scale_volts)
             ),
         ),
     };
     Check {
+        kind: CheckKind::MaximumError {
+            source: name.to_string(),
+        },
         limit: limit_text,
         achieved,
         margin_db: margin,
-        allowed_cmrr_db: Db::from_conversion(limit_peak / source_peak),
+        allowed_cmrr_db: Db::from_conversion(allowed),
         met: margin.0 >= 0.0,
     }
 }

@@ -1,0 +1,471 @@
+//! Judging a validated budget: the analyses at every frequency it names
+//! and temperature it covers, the headroom check, the requirement checks
+//! and the verdict.
+
+use super::cautions::cautions;
+use super::checks::{cmrr_checks, error_check, judged_on, outcome, same_frequency};
+use super::facts::{facts, remarks};
+use super::{
+    ContributionKind, ContributionRow, Corner, CornerValue, Db, FrequencyResult, JudgedFigure,
+    Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
+};
+use crate::engine::{
+    analyse_point_at, check_headroom, worst_corner, CornerSearch, EngineError, PointAnalysis,
+};
+use crate::model::{Amplitude, Budget, Interference, Judgement, Presentation, Requirement};
+use crate::quantity::{format_db, format_quantity, Dimension};
+use crate::stage::StageKind;
+
+/// Why a budget cannot be judged.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum VerdictError {
+    /// The chain failed to solve.
+    #[error(transparent)]
+    Engine(#[from] EngineError),
+    /// An end of the temperature range was asked for, and the budget has
+    /// none.
+    #[error("the budget has no temperature range, so it can only be judged at the reference temperature; add `temperature: {{reference: …, range: […, …]}}`")]
+    NoTemperatureRange,
+}
+
+/// Where the operating temperature is taken for a judgement.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Operating {
+    /// The reference temperature and both ends of the budget's range (the
+    /// worse end judged); the reference alone without a range. What
+    /// `cmrr budget` judges.
+    #[default]
+    OverRange,
+    /// The reference temperature only.
+    Reference,
+    /// The cold end of the range only.
+    Cold,
+    /// The hot end of the range only.
+    Hot,
+}
+
+impl Operating {
+    /// The temperature excursion the figures are shown at, and the ends
+    /// (excursion, kelvin) judged beside it.
+    fn excursions(self, budget: &Budget) -> Result<(f64, Vec<(f64, f64)>), VerdictError> {
+        let range = budget.temperature;
+        match (self, range) {
+            (Operating::OverRange, Some(r)) => {
+                let [cold, hot] = r.excursions();
+                Ok((0.0, vec![(cold, r.low_k), (hot, r.high_k)]))
+            }
+            (Operating::OverRange | Operating::Reference, _) => Ok((0.0, Vec::new())),
+            (Operating::Cold, Some(r)) => Ok((r.low_k - r.reference_k, Vec::new())),
+            (Operating::Hot, Some(r)) => Ok((r.high_k - r.reference_k, Vec::new())),
+            (Operating::Cold | Operating::Hot, None) => Err(VerdictError::NoTemperatureRange),
+        }
+    }
+}
+
+/// One point analysed and its worst corner searched.
+#[derive(Debug, Clone)]
+struct Analysed {
+    analysis: PointAnalysis,
+    corner: CornerSearch,
+}
+
+impl Analysed {
+    fn new(budget: &Budget, freq_hz: f64, delta_t: f64) -> Result<Analysed, EngineError> {
+        let analysis = analyse_point_at(budget, freq_hz, delta_t)?;
+        let corner = worst_corner(budget, &analysis)?;
+        Ok(Analysed { analysis, corner })
+    }
+}
+
+/// The analyses at one frequency: where the figures are shown, and the
+/// worse end of the temperature range when it is judged too.
+#[derive(Debug, Clone)]
+struct Analyses {
+    shown: Analysed,
+    /// The temperature of `shown`, kelvin; `None` at the reference.
+    shown_k: Option<f64>,
+    worse_end: Option<(f64, Analysed)>,
+}
+
+impl Analyses {
+    fn new(
+        budget: &Budget,
+        freq_hz: f64,
+        operating: Operating,
+        judgement: Judgement,
+    ) -> Result<Analyses, VerdictError> {
+        let (shown_dt, ends) = operating.excursions(budget)?;
+        let shown = Analysed::new(budget, freq_hz, shown_dt)?;
+        let shown_k = (shown_dt != 0.0)
+            .then(|| budget.temperature.map(|r| r.reference_k + shown_dt))
+            .flatten();
+        let mut worse_end: Option<(f64, Analysed)> = None;
+        for (delta_t, kelvin) in ends {
+            let analysis = Analysed::new(budget, freq_hz, delta_t)?;
+            let worse = worse_end.as_ref().is_none_or(|(_, w)| {
+                conversion_totals(&analysis).judged(judgement)
+                    > conversion_totals(w).judged(judgement)
+            });
+            if worse {
+                worse_end = Some((kelvin, analysis));
+            }
+        }
+        Ok(Analyses {
+            shown,
+            shown_k,
+            worse_end,
+        })
+    }
+
+    /// The judged conversion and where it is worst: the worse of the
+    /// figures shown and the worse end of the range.
+    fn judged(&self, judgement: Judgement) -> (Option<f64>, f64) {
+        let shown = conversion_totals(&self.shown).judged(judgement);
+        match &self.worse_end {
+            Some((kelvin, end)) if conversion_totals(end).judged(judgement) > shown => {
+                (Some(*kelvin), conversion_totals(end).judged(judgement))
+            }
+            _ => (self.shown_k, shown),
+        }
+    }
+}
+
+/// Judge `budget` as `cmrr budget` does: over its temperature range.
+pub fn judge(budget: &Budget) -> Result<Report, VerdictError> {
+    judge_with(budget, Operating::OverRange)
+}
+
+/// Judge `budget` at every frequency it names, the temperature taken as
+/// `operating` says, and assemble the report.
+pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, VerdictError> {
+    let requirement = budget.requirement.as_ref();
+    let judgement = judged_on(requirement);
+    let mut cache: Vec<(f64, Analyses)> = Vec::new();
+    let mut analyses_at = |freq: f64| -> Result<Analyses, VerdictError> {
+        if let Some((_, found)) = cache.iter().find(|(f, _)| same_frequency(*f, freq)) {
+            return Ok(found.clone());
+        }
+        let analyses = Analyses::new(budget, freq, operating, judgement)?;
+        cache.push((freq, analyses.clone()));
+        Ok(analyses)
+    };
+    let mut results = Vec::new();
+    for source in &budget.interference {
+        let analyses = analyses_at(source.frequency_hz)?;
+        results.push(source_result(budget, source, &analyses, requirement));
+    }
+    let mut extra: Vec<f64> = requirement
+        .map(|r| r.min_cmrr.iter().map(|m| m.frequency_hz).collect())
+        .unwrap_or_default();
+    extra.extend(&budget.extra_frequencies_hz);
+    let mut frequencies: Vec<FrequencyResult> = Vec::new();
+    for freq in extra {
+        let covered = budget
+            .interference
+            .iter()
+            .any(|s| same_frequency(s.frequency_hz, freq))
+            || frequencies
+                .iter()
+                .any(|f| same_frequency(f.frequency_hz, freq));
+        if covered {
+            continue;
+        }
+        let analyses = analyses_at(freq)?;
+        frequencies.push(frequency_result(budget, &analyses, requirement));
+    }
+    frequencies.sort_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz));
+    let headroom = check_headroom(budget)?;
+    let mut report = Report {
+        schema_version: SCHEMA_VERSION,
+        budget: budget.name.clone(),
+        notes: budget.notes.clone(),
+        cautions: cautions(budget),
+        remarks: remarks(budget),
+        facts: facts(budget),
+        measurand_unit: budget.measurand.as_ref().map(|m| m.unit.clone()),
+        headroom,
+        results,
+        frequencies,
+        verdict: Verdict {
+            status: Status::NoRequirement,
+            met: None,
+            margin_db: None,
+            tightest: None,
+        },
+    };
+    report.verdict = verdict(&report);
+    Ok(report)
+}
+
+/// The verdict over every judged point; a headroom finding means the
+/// figures do not hold, whatever the margins say.
+fn verdict(report: &Report) -> Verdict {
+    let tightest = report
+        .judged_points()
+        .into_iter()
+        .filter_map(|p| p.requirement.map(|o| (p.at, o.margin_db, o.met)))
+        .min_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
+    let all_met = report
+        .judged_points()
+        .iter()
+        .filter_map(|p| p.requirement)
+        .all(|o| o.met);
+    let holds = report.headroom.is_empty();
+    let status = match (&tightest, holds) {
+        (_, false) => Status::DoesNotHold,
+        (None, true) => Status::NoRequirement,
+        (Some(_), true) if all_met => Status::Met,
+        (Some(_), true) => Status::Missed,
+    };
+    Verdict {
+        status,
+        met: match status {
+            Status::Met => Some(true),
+            Status::Missed | Status::DoesNotHold => Some(false),
+            Status::NoRequirement => None,
+        },
+        margin_db: tightest.as_ref().map(|t| t.1),
+        tightest: tightest.map(|t| t.0),
+    }
+}
+
+/// Contribution rows, largest first, with the error each leaves when an
+/// amplitude is given (volts in the amplitude's own form). Temperature
+/// coefficients that contribute nothing (at the reference temperature) are
+/// left out.
+fn contribution_rows(
+    budget: &Budget,
+    analysed: &Analysed,
+    amplitude: Option<&Amplitude>,
+) -> Vec<ContributionRow> {
+    let analysis = &analysed.analysis;
+    let worst = analysis.worst_case();
+    let share = |magnitude: f64| if worst > 0.0 { magnitude / worst } else { 0.0 };
+    let mut rows = Vec::new();
+    let nominal = analysis.nominal_magnitude();
+    if nominal > 0.0 {
+        rows.push(ContributionRow {
+            name: "nominal imbalance".into(),
+            stage: "whole chain".into(),
+            value: "values as given".into(),
+            field: String::new(),
+            kind: ContributionKind::Systematic,
+            cmrr_db: Db::from_conversion(nominal),
+            error_rti_v: amplitude.map(|a| nominal * a.volts),
+            share: share(nominal),
+        });
+    }
+    for contribution in &analysis.contributions {
+        let parameter = budget.parameters.get(contribution.param);
+        let magnitude = contribution.magnitude();
+        let is_drift =
+            parameter.presentation == Presentation::Value(Dimension::TemperatureCoefficient);
+        if is_drift && magnitude == 0.0 {
+            continue;
+        }
+        rows.push(ContributionRow {
+            name: parameter.name.clone(),
+            stage: budget.chain[parameter.stage].label.clone(),
+            value: parameter.describe(),
+            field: parameter.field.clone(),
+            kind: ContributionKind::Random,
+            cmrr_db: Db::from_conversion(magnitude),
+            error_rti_v: amplitude.map(|a| magnitude * a.volts),
+            share: share(magnitude),
+        });
+    }
+    rows.sort_by(|a, b| b.share.total_cmp(&a.share));
+    rows
+}
+
+/// The four totals of one analysis, as conversions.
+fn conversion_totals(analysed: &Analysed) -> Totals<f64> {
+    let analysis = &analysed.analysis;
+    Totals {
+        worst_case: analysis.worst_case(),
+        worst_corner: analysed.corner.magnitude(),
+        rss: analysis.rss(),
+        nominal: analysis.nominal_magnitude(),
+    }
+}
+
+/// Below this the linear bound and the exact corner count as the same.
+const SAME_DB: f64 = 0.1;
+
+fn corner(budget: &Budget, analysed: &Analysed) -> Corner {
+    let analysis = &analysed.analysis;
+    let search = &analysed.corner;
+    let worst = analysis.worst_case();
+    let interaction = search.interaction_magnitude();
+    let corner_db = Db::from_conversion(search.magnitude());
+    let bound_db = Db::from_conversion(worst);
+    let phase = analysis.phase_spread_deg();
+    let why_they_differ = (corner_db.0 - bound_db.0 > SAME_DB).then(|| match phase {
+        Some(angle) if angle >= 1.0 => format!(
+            "the linear bound adds the contributions' magnitudes as if they were in phase; here the two largest are {angle:.0}° apart, so no corner reaches the bound and the exact corner is {} better",
+            format_db(corner_db.0 - bound_db.0)
+        ),
+        _ => format!(
+            "the contributions interact: the exact corner is {} better than the linear bound",
+            format_db(corner_db.0 - bound_db.0)
+        ),
+    });
+    Corner {
+        cmrr_db: corner_db,
+        linear_bound_db: bound_db,
+        search: if search.exhaustive {
+            "exhaustive"
+        } else {
+            "directed"
+        },
+        corners_solved: search.evaluated,
+        interaction,
+        interaction_share: if worst > 0.0 {
+            interaction / worst
+        } else {
+            0.0
+        },
+        phase_spread_deg: phase,
+        why_they_differ,
+        parameters: search
+            .values
+            .iter()
+            .map(|(id, value)| corner_value(budget, *id, *value))
+            .collect(),
+    }
+}
+
+/// A parameter's value at a corner, with the end of its range it sits at.
+fn corner_value(budget: &Budget, id: crate::model::ParamId, value: f64) -> CornerValue {
+    use crate::model::Variation;
+    let p = budget.parameters.get(id);
+    let sign = if value >= p.nominal { "+" } else { "−" };
+    let shown = match (p.presentation, p.variation) {
+        (Presentation::Value(d), Variation::Relative { tolerance }) => format!(
+            "{} {sign}{}",
+            format_quantity(p.nominal, d),
+            crate::quantity::format_fraction(tolerance)
+        ),
+        (Presentation::Value(d), _) => format!("{sign}{}", format_quantity(value.abs(), d)),
+        (Presentation::ReciprocalCmrr, _) => {
+            format!("{} ({sign})", format_db(-20.0 * value.abs().log10()))
+        }
+    };
+    CornerValue {
+        name: p.name.clone(),
+        stage: budget.chain[p.stage].label.clone(),
+        value: shown,
+    }
+}
+
+fn temperature_result(
+    budget: &Budget,
+    analyses: &Analyses,
+    amplitude: Option<&Amplitude>,
+) -> Option<TemperatureResult> {
+    let (temperature_k, analysis) = analyses.worse_end.as_ref()?;
+    let conversion = conversion_totals(analysis);
+    Some(TemperatureResult {
+        temperature_k: *temperature_k,
+        cmrr_db: conversion.map(Db::from_conversion),
+        error_rti_v: amplitude.map(|a| conversion.map(|e| e * a.volts)),
+        corner: corner(budget, analysis),
+        contributions: contribution_rows(budget, analysis, amplitude),
+    })
+}
+
+/// The converter's LSB, when the chain ends in one.
+fn lsb_volts(budget: &Budget) -> Option<f64> {
+    match budget.chain.last().map(|s| &s.kind) {
+        Some(StageKind::Adc(adc)) => Some(adc.lsb_volts()),
+        _ => None,
+    }
+}
+
+fn judged_figure(
+    analyses: &Analyses,
+    judgement: Judgement,
+    amplitude: Option<&Amplitude>,
+) -> JudgedFigure {
+    let (temperature_k, conversion) = analyses.judged(judgement);
+    JudgedFigure {
+        on: judgement,
+        temperature_k,
+        cmrr_db: Db::from_conversion(conversion),
+        error_rti_v: amplitude.map(|a| conversion * a.volts),
+    }
+}
+
+fn source_result(
+    budget: &Budget,
+    source: &Interference,
+    analyses: &Analyses,
+    requirement: Option<&Requirement>,
+) -> SourceResult {
+    let analysis = &analyses.shown;
+    let conversion = conversion_totals(analysis);
+    let gain = analysis.analysis.differential_gain.norm();
+    let cmrr_db = conversion.map(Db::from_conversion);
+    let error_rti_v = conversion.map(|e| e * source.amplitude.volts);
+    let error_fs_ppm = requirement
+        .and_then(|r| r.full_scale_volts)
+        .map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
+    let judgement = judged_on(requirement);
+    let judged = judged_figure(analyses, judgement, Some(&source.amplitude));
+    let mut checks = requirement
+        .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
+        .unwrap_or_default();
+    if let Some(limit) = source.max_error.or(requirement.and_then(|r| r.max_error)) {
+        checks.push(error_check(
+            &source.name,
+            &limit,
+            &source.amplitude,
+            analyses.judged(judgement).1,
+        ));
+    }
+    SourceResult {
+        source: source.name.clone(),
+        frequency_hz: source.frequency_hz,
+        amplitude_v: source.amplitude.volts,
+        amplitude_form: source.amplitude.form,
+        differential_gain: gain,
+        cmrr_db,
+        error_rti_v,
+        error_rto_v: error_rti_v.map(|e| e * gain),
+        error_fs_ppm,
+        corner: corner(budget, analysis),
+        error_lsb: lsb_volts(budget).map(|lsb| error_rti_v.map(|e| e * gain / lsb)),
+        error_measurand: budget
+            .measurand
+            .as_ref()
+            .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
+        contributions: contribution_rows(budget, analysis, Some(&source.amplitude)),
+        at_temperature: temperature_result(budget, analyses, Some(&source.amplitude)),
+        judged,
+        requirement: outcome(requirement, checks),
+    }
+}
+
+fn frequency_result(
+    budget: &Budget,
+    analyses: &Analyses,
+    requirement: Option<&Requirement>,
+) -> FrequencyResult {
+    let analysis = &analyses.shown;
+    let freq_hz = analysis.analysis.freq_hz;
+    let cmrr_db = conversion_totals(analysis).map(Db::from_conversion);
+    let judged = judged_figure(analyses, judged_on(requirement), None);
+    let checks = requirement
+        .map(|r| cmrr_checks(r, freq_hz, judged.cmrr_db))
+        .unwrap_or_default();
+    FrequencyResult {
+        frequency_hz: freq_hz,
+        differential_gain: analysis.analysis.differential_gain.norm(),
+        cmrr_db,
+        corner: corner(budget, analysis),
+        contributions: contribution_rows(budget, analysis, None),
+        at_temperature: temperature_result(budget, analyses, None),
+        judged,
+        requirement: outcome(requirement, checks),
+    }
+}
