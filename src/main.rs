@@ -5,7 +5,9 @@
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use cmrr_budget::budget::{load_budget, LoadError};
-use cmrr_budget::design::{is_trimmable, trim_effect, DesignError, Goal, Knob, KnobKind};
+use cmrr_budget::design::{
+    is_trimmable, trim_effect, DesignError, Goal, Knob, KnobKind, TrimMethod,
+};
 use cmrr_budget::model::Budget;
 use cmrr_budget::montecarlo::production::{production_yield, YieldReportError};
 use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions, MAX_TRIALS};
@@ -152,6 +154,11 @@ enum Command {
         /// The trim's resolution as a ratio error, e.g. `10 ppm`.
         #[arg(long, value_name = "FRACTION")]
         resolution: String,
+        /// How the stage is trimmed: null (R4 adjusted per unit for zero
+        /// common-mode output at DC, the bench practice) or ratio (the
+        /// resistors' ratio matched).
+        #[arg(long, value_enum, default_value_t = TrimMethodArg::Null)]
+        method: TrimMethodArg,
         #[command(flatten)]
         output: OutputArgs,
     },
@@ -217,6 +224,15 @@ enum VaryArg {
     FirstStageGain,
     /// A differential pair's tail resistance.
     Tail,
+}
+
+/// How `cmrr trim` trims.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum TrimMethodArg {
+    /// R4 adjusted per unit until the common-mode output at DC is zero.
+    Null,
+    /// R1 to R3 exact, R4 within the resolution.
+    Ratio,
 }
 
 /// Where a sweep's temperature sits.
@@ -386,8 +402,9 @@ fn run(cli: Cli) -> Result<u8, CliError> {
             file,
             stage,
             resolution,
+            method,
             output,
-        } => trim(&file, stage.as_deref(), &resolution, &output),
+        } => trim(&file, stage.as_deref(), &resolution, method, &output),
         Command::Yield {
             file,
             trials,
@@ -489,7 +506,7 @@ fn improve(
     let sensitivity = cmrr_budget::design::sensitivity(&budget, yield_trials.map(|t| (t, seed)))
         .map_err(in_file(file))?;
     let sources = budget.interference.iter().map(|s| s.name.clone()).collect();
-    let report = improve_report(&budget.name, sources, allocation, sensitivity);
+    let report = improve_report(&base, sources, allocation, sensitivity);
     output.emit(&report.render(output.format.into()), &base.cautions)?;
     Ok(MET)
 }
@@ -498,8 +515,13 @@ fn trim(
     file: &Path,
     stage: Option<&str>,
     resolution: &str,
+    method: TrimMethodArg,
     output: &OutputArgs,
 ) -> Result<u8, CliError> {
+    let method = match method {
+        TrimMethodArg::Null => TrimMethod::Null,
+        TrimMethodArg::Ratio => TrimMethod::Ratio,
+    };
     output.check_paths(&[file], None)?;
     let budget = load_budget(file)?;
     let resolution = parse_quantity(resolution, Dimension::Fraction)
@@ -536,7 +558,7 @@ fn trim(
                 ))
             })?,
     };
-    let rows = trim_effect(&budget, index, resolution).map_err(in_file(file))?;
+    let rows = trim_effect(&budget, index, resolution, method).map_err(in_file(file))?;
     let judged_on = budget
         .requirement
         .as_ref()
@@ -544,7 +566,7 @@ fn trim(
     let report = trim_report(
         &budget.name,
         &budget.chain[index].label,
-        resolution,
+        (resolution, method),
         judged_on,
         rows,
     );

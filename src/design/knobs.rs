@@ -2,7 +2,7 @@
 //! copy of the budget.
 
 use crate::model::{Budget, ParamId, Presentation, Variation};
-use crate::quantity::{format_fraction, format_si, Dimension};
+use crate::quantity::{format_fraction, format_quantity, format_si, Dimension};
 use crate::stage::{StageKind, TailKind};
 
 /// Resistor tolerance classes of IEC 60062's letter code, loosest first
@@ -199,7 +199,16 @@ impl Knob {
                     })
                 }
                 KnobKind::Tracking => {
-                    let params = stage_params(budget, index, |p| p.name.ends_with(" TC"));
+                    // The resistors whose ratio sets the CMRR: a three-op-amp
+                    // in-amp's difference stage (its first-stage resistors set
+                    // the gain, not the rejection), or every resistor of a
+                    // difference amplifier.
+                    let in_ratio = |p: &crate::model::Parameter| match kind_here {
+                        StageKind::ThreeOpAmpInAmp(_) => p.field.contains(".difference_stage."),
+                        _ => true,
+                    };
+                    let params =
+                        stage_params(budget, index, |p| p.name.ends_with(" TC") && in_ratio(p));
                     let network = !stage_params(budget, index, |p| p.name == "network TC (shared)")
                         .is_empty();
                     (!params.is_empty()).then_some(Knob::Tracking {
@@ -299,7 +308,7 @@ impl Knob {
             Knob::Tracking { .. } => Some(
                 TRACKING_STEPS
                     .iter()
-                    .map(|t| (*t, format!("{} ppm/K", t * 1e6)))
+                    .map(|t| (*t, format_quantity(*t, Dimension::TemperatureCoefficient)))
                     .collect(),
             ),
             Knob::FirstStageGain { .. } | Knob::TailResistance { .. } => None,
@@ -372,7 +381,7 @@ impl Knob {
         match self {
             Knob::FirstStageGain { .. } => format!("G1 = {}", format_si(setting, "V/V")),
             Knob::TailResistance { .. } => format!("tail {}", format_si(setting, "Ω")),
-            Knob::Tracking { .. } => format!("{} ppm/K", setting * 1e6),
+            Knob::Tracking { .. } => format_quantity(setting, Dimension::TemperatureCoefficient),
             _ => format_fraction(setting),
         }
     }

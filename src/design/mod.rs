@@ -221,12 +221,21 @@ pub fn size(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Sizing, DesignEr
 /// resistance that meets the goal; the steps record the bracket, the
 /// highest setting first and the answer last.
 fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, DesignError> {
-    let (low, high) = match knob {
+    let (low, mut high) = match knob {
         Knob::FirstStageGain { .. } => (1.01f64, 1e4f64),
         _ => (10.0f64, 1e12f64),
     };
     let mut steps = vec![step(knob, budget, high, knob.describe(high), goal)?];
-    if !steps[0].meets {
+    if !steps[0].holds {
+        // Too much gain drives a node out of its range: the answer must lie
+        // below the highest setting whose figures still hold.
+        let Some(holding) = highest_holding(budget, knob, goal, low, high)? else {
+            return Ok(steps);
+        };
+        high = holding.setting;
+        steps.push(holding);
+    }
+    if !steps.last().is_some_and(|s| s.meets) {
         return Ok(steps);
     }
     let bottom = step(knob, budget, low, knob.describe(low), goal)?;
@@ -235,7 +244,7 @@ fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, Des
         return Ok(steps);
     }
     let (mut lo, mut hi) = (low.ln(), high.ln());
-    let mut best = steps[0].clone();
+    let mut best = steps.last().expect("a step was tried").clone();
     for _ in 0..40 {
         let mid = ((lo + hi) / 2.0).exp();
         let trial = step(knob, budget, mid, knob.describe(mid), goal)?;
@@ -251,6 +260,34 @@ fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, Des
     }
     steps.push(best);
     Ok(steps)
+}
+
+/// The highest setting between `low` and `high` (which does not hold)
+/// whose figures hold, by log bisection; `None` when even `low` does not.
+fn highest_holding(
+    budget: &Budget,
+    knob: &Knob,
+    goal: Goal,
+    low: f64,
+    high: f64,
+) -> Result<Option<Step>, DesignError> {
+    let bottom = step(knob, budget, low, knob.describe(low), goal)?;
+    if !bottom.holds {
+        return Ok(None);
+    }
+    let (mut lo, mut hi) = (low.ln(), high.ln());
+    let mut best = bottom;
+    while hi - lo >= 1e-4 {
+        let mid = ((lo + hi) / 2.0).exp();
+        let trial = step(knob, budget, mid, knob.describe(mid), goal)?;
+        if trial.holds {
+            lo = mid.ln();
+            best = trial;
+        } else {
+            hi = mid.ln();
+        }
+    }
+    Ok(Some(best))
 }
 
 /// Where the requirement is tightest in `budget`: the largest contributor
@@ -493,6 +530,57 @@ pub fn trimmed(budget: &Budget, stage: usize, resolution: f64) -> Option<Budget>
     Some(trimmed)
 }
 
+/// How a difference stage is trimmed at DC.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum TrimMethod {
+    /// The bench practice: R4 adjusted in each unit until the common-mode
+    /// output at DC is zero, which cancels every DC conversion at once (the
+    /// resistors' mismatch, the op-amps' own CMRR, a source imbalance),
+    /// missing the null by the resolution.
+    Null,
+    /// The resistors' ratio matched: R1 to R3 exact and R4 within the
+    /// resolution; the op-amps' own conversion stays.
+    Ratio,
+}
+
+impl TrimMethod {
+    /// What the method does, in one sentence for a report.
+    pub fn explanation(self) -> &'static str {
+        match self {
+            TrimMethod::Null => "null trim: in each unit R4 is adjusted until the common-mode output at DC is zero (at the reference temperature), cancelling every DC conversion at once, the op-amps' own included; it misses the null by the resolution, and the resistors drift away from it over temperature",
+            TrimMethod::Ratio => "ratio trim: the resistors' ratio is matched (R1 to R3 exact, R4 within the resolution); the op-amps' own conversion, the source's and every frequency-dependent contributor stay, and the resistors drift over temperature",
+        }
+    }
+}
+
+/// A copy of `budget` null-trimmed at the difference stage of `stage`: R4
+/// solved per unit for a zero common-mode output at DC, within
+/// ±`resolution` of the null.
+pub fn null_trimmed(budget: &Budget, stage: usize, resolution: f64) -> Option<Budget> {
+    let [_, _, _, r4] = difference_resistors(budget, stage)?;
+    let mut trimmed = budget.clone();
+    let adjusted = trimmed.parameters.get_mut(r4);
+    adjusted.variation = Variation::Fixed;
+    let field = adjusted.field.clone();
+    let residual = trimmed.parameters.add(crate::model::Parameter {
+        name: "R4 null-trim residual".into(),
+        stage,
+        field,
+        nominal: 0.0,
+        variation: Variation::SignedBound {
+            magnitude: resolution,
+        },
+        presentation: crate::model::Presentation::Value(crate::quantity::Dimension::Fraction),
+        shape: None,
+    });
+    trimmed.null_trim = Some(crate::model::NullTrim {
+        adjusted: r4,
+        residual,
+    });
+    Some(trimmed)
+}
+
 /// One interference source before and after a trim.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TrimRow {
@@ -514,8 +602,13 @@ pub fn trim_effect(
     budget: &Budget,
     stage: usize,
     resolution: f64,
+    method: TrimMethod,
 ) -> Result<Vec<TrimRow>, DesignError> {
-    let trimmed_budget = trimmed(budget, stage, resolution).ok_or_else(|| {
+    let trimmed_budget = match method {
+        TrimMethod::Null => null_trimmed(budget, stage, resolution),
+        TrimMethod::Ratio => trimmed(budget, stage, resolution),
+    }
+    .ok_or_else(|| {
         DesignError::Knob(KnobError(format!(
             "{} has no difference stage to trim",
             budget.chain[stage].label

@@ -23,6 +23,7 @@
 
 use super::chain::{chain_response, EngineError};
 use super::linalg::C64;
+use super::settle::settle;
 use crate::model::{Budget, ParamId};
 use crate::stage::Point;
 
@@ -132,6 +133,7 @@ pub fn analyse_point_at(
 ) -> Result<PointAnalysis, EngineError> {
     let parameters = &budget.parameters;
     let mut values = parameters.values_at(delta_t);
+    settle(budget, &mut values, delta_t)?;
     let nominal_response = chain_response(&budget.chain, &Point::new(freq_hz, &values))?;
     let nominal = nominal_response.conversion();
     // Each varying parameter at each of its extremes, alone.
@@ -143,13 +145,13 @@ pub fn analyse_point_at(
         let mut ends = [(0.0, C64::new(0.0, 0.0)); 2];
         for (slot, extreme) in ends.iter_mut().zip(extremes) {
             values[id.0] = extreme;
-            parameters.resolve(&mut values, delta_t);
+            settle(budget, &mut values, delta_t)?;
             let conversion =
                 chain_response(&budget.chain, &Point::new(freq_hz, &values))?.conversion();
             *slot = (extreme, conversion - nominal);
         }
         values[id.0] = parameter.nominal;
-        parameters.resolve(&mut values, delta_t);
+        settle(budget, &mut values, delta_t)?;
         // A contribution is the larger of the two swings.
         let [low, high] = ends;
         let (value, deviation) = if high.1.norm() >= low.1.norm() {

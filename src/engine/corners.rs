@@ -12,6 +12,7 @@
 use super::chain::{chain_response, EngineError};
 use super::contributions::{resolved, PointAnalysis};
 use super::linalg::C64;
+use super::settle::settle;
 use crate::model::{Budget, ParamId};
 use crate::stage::Point;
 
@@ -61,7 +62,7 @@ pub fn worst_corner(
     let parameters = &budget.parameters;
     let mut values = parameters.values_at(delta_t);
     let evaluate = |values: &mut Vec<f64>| -> Result<C64, EngineError> {
-        parameters.resolve(values, delta_t);
+        settle(budget, values, delta_t)?;
         Ok(chain_response(&budget.chain, &Point::new(freq_hz, values))?.conversion())
     };
     let set = |values: &mut Vec<f64>, i: usize, end: usize| {

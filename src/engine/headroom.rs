@@ -112,7 +112,8 @@ fn input_levels(budget: &Budget, values: &[f64]) -> Result<Vec<[f64; 2]>, Engine
 
 /// Check every probed node of the chain at nominal values.
 pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineError> {
-    let values = budget.parameters.nominal_values();
+    let mut values = budget.parameters.nominal_values();
+    super::settle::settle(budget, &mut values, 0.0)?;
     let at_dc = probe_responses(budget, &values, 0.0)?;
     let levels = input_levels(budget, &values)?;
     let mut ac: Vec<(f64, Vec<Vec<ProbeResponse>>)> = Vec::new();

@@ -8,6 +8,7 @@ mod corners;
 mod headroom;
 pub mod linalg;
 mod mixed_mode;
+mod settle;
 
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
@@ -16,3 +17,4 @@ pub use contributions::{
 pub use corners::{worst_corner, CornerSearch, EXHAUSTIVE_LIMIT};
 pub use headroom::{check_headroom, HeadroomFinding};
 pub use mixed_mode::MixedMode;
+pub use settle::settle;

@@ -15,6 +15,9 @@ pub struct Budget {
     pub chain: Vec<Stage>,
     /// Every circuit parameter of every stage.
     pub parameters: Parameters,
+    /// A null trim applied to every unit, when the design is modelled as
+    /// trimmed on the bench (see [`NullTrim`]); `None` as read from a file.
+    pub null_trim: Option<NullTrim>,
     /// The common-mode interference sources.
     pub interference: Vec<Interference>,
     /// What the design must achieve, when stated.
@@ -31,6 +34,20 @@ pub struct Budget {
     pub sweep: SweepRange,
     /// How toleranced values spread in production, by default.
     pub production: Production,
+}
+
+/// A null trim at DC: in each unit, one resistor is adjusted until the
+/// common-mode output at DC is zero (at the reference temperature), which
+/// cancels every DC conversion at once, the op-amps' own included; the
+/// adjustment then misses the null by the trim's resolution. The engine
+/// solves the adjustment for every set of values it evaluates
+/// ([`crate::engine::settle`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct NullTrim {
+    /// The resistor adjusted (its base parameter).
+    pub adjusted: super::ParamId,
+    /// The relative error left after the trim, a bound of unknown sign.
+    pub residual: super::ParamId,
 }
 
 /// The default spread of toleranced values in production.

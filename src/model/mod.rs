@@ -6,6 +6,6 @@ mod params;
 
 pub use budget::{
     describe_volts, Amplitude, Budget, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr,
-    Production, Requirement, Safety, SweepRange, TemperatureRange,
+    NullTrim, Production, Requirement, Safety, SweepRange, TemperatureRange,
 };
 pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

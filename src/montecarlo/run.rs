@@ -4,7 +4,7 @@
 
 use super::stats::{squared_of_cmrr_db, SMALLEST_SQUARED};
 use super::{CmrrHistogram, FastChain, Prepared, Sampler, SplitMix64};
-use crate::engine::{chain_response, EngineError};
+use crate::engine::{chain_response, settle, EngineError};
 use crate::model::Budget;
 use crate::stage::Point;
 use rayon::prelude::*;
@@ -247,7 +247,7 @@ impl TrialSolver<'_> {
             (TemperatureMode::Hot, Some(r)) => r.high_k - r.reference_k,
             _ => 0.0,
         };
-        self.budget.parameters.resolve(values, delta_t);
+        settle(self.budget, values, delta_t)?;
         match &self.fast {
             Some(fast) => {
                 fast.prepare(values, &mut workspace.prepared);

@@ -2,7 +2,7 @@
 
 use super::csv::{escape, number};
 use super::{Render, SCHEMA_VERSION};
-use crate::design::{AllocationTable, Sensitivity, Sizing, TrimRow};
+use crate::design::{AllocationTable, Sensitivity, Sizing, TrimMethod, TrimRow};
 use crate::quantity::{format_db, format_share, format_si};
 use serde::Serialize;
 use tabled::builder::Builder;
@@ -46,10 +46,10 @@ pub fn render_sizing_table(report: &SizingReport) -> String {
     for step in &s.steps {
         table.push_record([
             step.label.clone(),
-            if step.meets {
-                "yes".into()
-            } else {
-                "no".into()
+            match (step.meets, step.holds) {
+                (true, _) => "yes".into(),
+                (false, true) => "no".into(),
+                (false, false) => "no: does not hold (headroom)".into(),
             },
             step.margin_db.map_or("—".into(), format_db),
             step.yield_fraction.map_or("—".into(), format_share),
@@ -87,6 +87,11 @@ pub struct ImproveReport {
     pub allocation: Vec<AllocationTable>,
     /// The interference sources, in the order of `gain_db`.
     pub sources: Vec<String>,
+    /// The verdict on the budget as written.
+    pub status: crate::verdict::Status,
+    /// Its headroom findings: while there are any, the figures below do
+    /// not hold.
+    pub headroom: Vec<crate::engine::HeadroomFinding>,
     /// What halving each spread buys, best first.
     pub sensitivity: Vec<Sensitivity>,
 }
@@ -94,6 +99,12 @@ pub struct ImproveReport {
 /// `cmrr improve` as a terminal report.
 pub fn render_improve_table(report: &ImproveReport) -> String {
     let mut out = format!("What must change: {}\n", report.budget);
+    for finding in &report.headroom {
+        out.push_str(&format!("\n{}\n", super::table::headroom_warning(finding)));
+    }
+    if !report.headroom.is_empty() {
+        out.push_str("the design as written does not hold: clear the headroom findings first; the figures below are small-signal figures only\n");
+    }
     if report.allocation.is_empty() {
         out.push_str("no requirement stated: nothing to allocate\n");
     }
@@ -186,6 +197,8 @@ pub struct TrimReport {
     pub stage: String,
     /// The trim's resolution as a ratio error.
     pub resolution: f64,
+    /// How the stage is trimmed: `null` or `ratio`.
+    pub method: TrimMethod,
     /// The total compared (the requirement's, worst case by default).
     pub judged_on: crate::model::Judgement,
     /// Per interference source.
@@ -195,10 +208,11 @@ pub struct TrimReport {
 /// `cmrr trim` as a terminal report.
 pub fn render_trim_table(report: &TrimReport) -> String {
     let mut out = format!(
-        "Trimming the difference stage of {} at DC to ±{} ({})\n",
+        "Trimming the difference stage of {} at DC to ±{} ({})\n{}\n",
         report.stage,
         crate::quantity::format_fraction(report.resolution),
-        report.budget
+        report.budget,
+        report.method.explanation()
     );
     let mut builder = Builder::default();
     let judged = report.judged_on.label();
@@ -223,7 +237,7 @@ pub fn render_trim_table(report: &TrimReport) -> String {
         ]);
     }
     out.push_str(&styled(builder, 2));
-    out.push_str("\nThe trim nulls the resistors' ratio error at DC; what remains is its resolution, the resistors' drift over temperature, and every frequency-dependent contributor, which a DC trim does not touch.\n");
+    out.push('\n');
     out
 }
 
@@ -239,16 +253,18 @@ pub fn sizing_report(budget: &str, goal: String, sizing: Sizing) -> SizingReport
 
 /// Assemble `cmrr improve`'s report.
 pub fn improve_report(
-    budget: &str,
+    verdict: &crate::verdict::Report,
     sources: Vec<String>,
     allocation: Vec<AllocationTable>,
     sensitivity: Vec<Sensitivity>,
 ) -> ImproveReport {
     ImproveReport {
         schema_version: SCHEMA_VERSION,
-        budget: budget.into(),
+        budget: verdict.budget.clone(),
         allocation,
         sources,
+        status: verdict.verdict.status,
+        headroom: verdict.headroom.clone(),
         sensitivity,
     }
 }
@@ -257,7 +273,7 @@ pub fn improve_report(
 pub fn trim_report(
     budget: &str,
     stage: &str,
-    resolution: f64,
+    (resolution, method): (f64, TrimMethod),
     judged_on: crate::model::Judgement,
     rows: Vec<TrimRow>,
 ) -> TrimReport {
@@ -266,6 +282,7 @@ pub fn trim_report(
         budget: budget.into(),
         stage: stage.into(),
         resolution,
+        method,
         judged_on,
         rows,
     }
@@ -357,10 +374,15 @@ impl Render for TrimReport {
 
     /// One row per interference source.
     fn csv(&self) -> String {
-        let mut out = String::from("source,frequency_hz,judged_on,before_cmrr_db,after_cmrr_db,after_over_temperature_cmrr_db\n");
+        let mut out = String::from("source,frequency_hz,method,judged_on,before_cmrr_db,after_cmrr_db,after_over_temperature_cmrr_db\n");
+        let method = match self.method {
+            TrimMethod::Null => "null",
+            TrimMethod::Ratio => "ratio",
+        };
         for row in &self.rows {
             let fields = [
                 escape(&row.source),
+                method.to_string(),
                 number(row.frequency_hz),
                 self.judged_on.label().replace(' ', "_"),
                 super::csv::db(super::Db(row.before_db)),

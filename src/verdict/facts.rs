@@ -71,7 +71,11 @@ fn is_component(parameter: &Parameter) -> bool {
 /// Facts computed at nominal values and the reference temperature: gains,
 /// a pair's bias and tail, a converter's LSB.
 pub(crate) fn facts(budget: &Budget) -> Vec<String> {
-    let values = budget.parameters.nominal_values();
+    let mut values = budget.parameters.nominal_values();
+    // A trimmed chain's nominal facts are those of its trimmed values; a
+    // chain that does not solve has no facts to state (the analyses that
+    // follow report the failure).
+    let _ = crate::engine::settle(budget, &mut values, 0.0);
     let point = Point::new(0.0, &values);
     let mut facts = Vec::new();
     for stage in &budget.chain {

@@ -272,6 +272,7 @@ impl Validator<'_> {
             notes: raw.notes.clone(),
             chain,
             parameters: std::mem::take(&mut self.parameters),
+            null_trim: None,
             interference,
             requirement,
             extra_frequencies_hz,
