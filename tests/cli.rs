@@ -1,6 +1,6 @@
-//! The `cmrr` command end to end: every example budget, every invalid
-//! budget with the message it must give, the output formats and the
-//! output-file rules.
+//! The `cmrr` command end to end: every example budget, the output formats
+//! and the output-file rules. (Every invalid budget's whole message is
+//! pinned by the golden corpus, `tests/golden.rs`.)
 
 use assert_cmd::Command;
 use std::fs;
@@ -135,38 +135,6 @@ fn check_json_contract(report: &serde_json::Value, name: &str) {
         if let Some(requirement) = result["requirement"].as_object() {
             assert!(requirement["met"].is_boolean());
             assert!(requirement["margin_db"].is_number() || requirement["margin_db"] == "inf");
-        }
-    }
-}
-
-#[test]
-fn every_invalid_budget_gives_its_message_and_status_2() {
-    let folder = repository().join("budgets/invalid");
-    let invalid = yaml_files(&folder);
-    assert!(invalid.len() >= 10);
-    for file in invalid {
-        let name = file.file_name().unwrap().to_string_lossy().to_string();
-        let expected_path = file.with_extension("expected");
-        let expected = fs::read_to_string(&expected_path)
-            .unwrap_or_else(|_| panic!("{name} needs a {} beside it", expected_path.display()));
-        for command in ["budget", "check"] {
-            let output = cmrr()
-                .current_dir(repository())
-                .args([command, &format!("budgets/invalid/{name}")])
-                .assert()
-                .code(2);
-            let stderr = String::from_utf8(output.get_output().stderr.clone()).unwrap();
-            assert!(
-                stderr.starts_with("error: budgets/invalid/"),
-                "{name}: {stderr}"
-            );
-            assert!(!stderr.contains("panicked"), "{name}: {stderr}");
-            for line in expected.lines().filter(|l| !l.trim().is_empty()) {
-                assert!(
-                    stderr.contains(line),
-                    "{name}: expected `{line}` in:\n{stderr}"
-                );
-            }
         }
     }
 }

@@ -17,7 +17,7 @@ use crate::model::{Budget, ParamId};
 use crate::stage::Point;
 
 /// Up to this many varying parameters, every corner is tried.
-pub const EXHAUSTIVE_LIMIT: usize = 16;
+pub const EXHAUSTIVE_LIMIT: usize = 12;
 /// Passes of single flips in the directed search.
 const MAX_PASSES: usize = 50;
 
