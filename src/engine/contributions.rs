@@ -103,19 +103,28 @@ impl PointAnalysis {
         self.nominal_magnitude() + random.sqrt()
     }
 
-    /// How far apart in phase the two largest contributions are, in
-    /// degrees from 0 to 90 (signs being free, a contribution and its
-    /// opposite are the same direction); `None` with fewer than two.
+    /// The largest phase difference, in degrees from 0 to 90, between the
+    /// largest contribution and any other of at least a tenth of its size
+    /// (signs being free, a contribution and its opposite are the same
+    /// direction); `None` when no other is that large.
     pub fn phase_spread_deg(&self) -> Option<f64> {
-        let mut largest: Vec<&Contribution> = self
+        let largest = self
             .contributions
             .iter()
             .filter(|c| c.magnitude() > 0.0)
-            .collect();
-        largest.sort_by(|a, b| b.magnitude().total_cmp(&a.magnitude()));
-        let [a, b] = [largest.first()?, largest.get(1)?];
-        let angle = (a.deviation / b.deviation).arg().abs().to_degrees();
-        Some(if angle > 90.0 { 180.0 - angle } else { angle })
+            .max_by(|a, b| a.magnitude().total_cmp(&b.magnitude()))?;
+        self.contributions
+            .iter()
+            .filter(|c| c.param != largest.param && c.magnitude() >= 0.1 * largest.magnitude())
+            .map(|c| {
+                let angle = (largest.deviation / c.deviation).arg().abs().to_degrees();
+                if angle > 90.0 {
+                    180.0 - angle
+                } else {
+                    angle
+                }
+            })
+            .max_by(f64::total_cmp)
     }
 }
 

@@ -302,7 +302,7 @@ fn corner(budget: &Budget, analysed: &Analysed) -> Corner {
     let phase = analysis.phase_spread_deg();
     let why_they_differ = (corner_db.0 - bound_db.0 > SAME_DB).then(|| match phase {
         Some(angle) if angle >= 1.0 => format!(
-            "the linear bound adds the contributions' magnitudes as if they were in phase; here the two largest are {angle:.0}° apart, so no corner reaches the bound and the exact corner is {} better",
+            "the linear bound adds the contributions' magnitudes as if they were in phase; here the largest and another are {angle:.0}° apart, so no corner reaches the bound and the exact corner is {} better",
             format_db(corner_db.0 - bound_db.0)
         ),
         _ => format!(
