@@ -11,7 +11,7 @@ use cmrr_budget::montecarlo::production::production_yield;
 use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions};
 use cmrr_budget::quantity::format_db;
 use cmrr_budget::report::compare::build_compare_report;
-use cmrr_budget::verdict::{judge, Report};
+use cmrr_budget::verdict::judge;
 use rand::{Rng, SeedableRng};
 use std::path::PathBuf;
 use std::sync::atomic::AtomicBool;
@@ -58,36 +58,6 @@ fn db(value: f64) -> String {
     format_db(value)
 }
 
-/// The worst corner the verdict states at `freq`: the worse of the
-/// reference and the worse end of the range.
-fn verdict_corner(report: &Report, freq: f64) -> f64 {
-    let same = |f: f64| (f - freq).abs() <= 1e-9 * freq.max(1.0);
-    let (shown, end) = report
-        .results
-        .iter()
-        .find(|r| same(r.frequency_hz))
-        .map(|r| {
-            (
-                r.corner.cmrr_db.0,
-                r.at_temperature.as_ref().map(|t| t.corner.cmrr_db.0),
-            )
-        })
-        .or_else(|| {
-            report
-                .frequencies
-                .iter()
-                .find(|f| same(f.frequency_hz))
-                .map(|f| {
-                    (
-                        f.corner.cmrr_db.0,
-                        f.at_temperature.as_ref().map(|t| t.corner.cmrr_db.0),
-                    )
-                })
-        })
-        .unwrap();
-    end.map_or(shown, |e| e.min(shown))
-}
-
 fn check_agreement(name: &str, budget: &Budget) {
     let report = judge(budget).unwrap();
     // compare shows the judged figure and the margin.
@@ -121,7 +91,7 @@ fn check_agreement(name: &str, budget: &Budget) {
     for f in &production.frequencies {
         assert_eq!(
             db(f.worst_corner.cmrr_db.0),
-            db(verdict_corner(&report, f.frequency_hz)),
+            db(report.worst_corner_at(f.frequency_hz).unwrap().cmrr_db.0),
             "{name} at {} Hz",
             f.frequency_hz
         );

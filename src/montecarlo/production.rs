@@ -9,9 +9,7 @@ use super::{
 use crate::engine::HeadroomFinding;
 use crate::model::Budget;
 use crate::quantity::{AmplitudeForm, SpreadShape};
-use crate::verdict::{
-    judge_with, Corner, Db, Operating, Report, Status, VerdictError, SCHEMA_VERSION,
-};
+use crate::verdict::{judge_with, Corner, Db, Operating, Status, VerdictError, SCHEMA_VERSION};
 use serde::Serialize;
 use std::sync::atomic::AtomicBool;
 
@@ -234,7 +232,10 @@ pub fn production_yield(
     let mut frequency_yields = Vec::new();
     for (index, &freq) in run.frequencies.iter().enumerate() {
         let histogram = &run.histograms[index];
-        let corner = worst_corner_of(&verdict, freq);
+        let corner = verdict
+            .worst_corner_at(freq)
+            .expect("the verdict covers every analysis frequency")
+            .clone();
         let required = run
             .checks
             .iter()
@@ -323,27 +324,4 @@ pub fn production_yield(
         headroom: verdict.headroom.clone(),
     };
     Ok((report, run))
-}
-
-/// The verdict's worst corner at `freq`: the worse of the figures shown
-/// and the worse end of the range.
-fn worst_corner_of(verdict: &Report, freq: f64) -> Corner {
-    let same = |f: f64| crate::verdict::same_frequency(f, freq);
-    let (shown, end) = verdict
-        .results
-        .iter()
-        .find(|r| same(r.frequency_hz))
-        .map(|r| (&r.corner, r.at_temperature.as_ref()))
-        .or_else(|| {
-            verdict
-                .frequencies
-                .iter()
-                .find(|f| same(f.frequency_hz))
-                .map(|f| (&f.corner, f.at_temperature.as_ref()))
-        })
-        .expect("the verdict covers every analysis frequency");
-    match end {
-        Some(t) if t.corner.cmrr_db.0 < shown.cmrr_db.0 => t.corner.clone(),
-        _ => shown.clone(),
-    }
 }

@@ -114,23 +114,6 @@ fn minimum_check(verdict: &Report, freq: f64, minimum_db: f64) -> Option<&crate:
         })
 }
 
-/// The verdict's totals at `freq`.
-fn judged_totals(verdict: &Report, freq: f64) -> Option<Totals<Db>> {
-    let same = |f: f64| crate::verdict::same_frequency(f, freq);
-    verdict
-        .results
-        .iter()
-        .find(|r| same(r.frequency_hz))
-        .map(|r| r.cmrr_db)
-        .or_else(|| {
-            verdict
-                .frequencies
-                .iter()
-                .find(|f| same(f.frequency_hz))
-                .map(|f| f.cmrr_db)
-        })
-}
-
 /// Assemble the report of a finished sweep, run `delta_t` kelvin from the
 /// reference temperature, with the exact figures at the required and
 /// interference frequencies taken from `verdict` (judged at the same
@@ -165,7 +148,7 @@ pub fn build_sweep_report(
             Some(RequiredPoint {
                 frequency_hz: m.frequency_hz,
                 required_db: Db(m.cmrr_db),
-                cmrr_db: judged_totals(verdict, m.frequency_hz)?,
+                cmrr_db: verdict.figures_at(m.frequency_hz)?.0,
                 judged_on,
                 margin_db: check.margin_db,
                 met: check.met,
@@ -179,7 +162,7 @@ pub fn build_sweep_report(
             Some(InterferencePoint {
                 source: s.name.clone(),
                 frequency_hz: s.frequency_hz,
-                cmrr_db: judged_totals(verdict, s.frequency_hz)?,
+                cmrr_db: verdict.figures_at(s.frequency_hz)?.0,
             })
         })
         .collect();

@@ -448,6 +448,38 @@ impl Report {
     }
 }
 
+impl Report {
+    /// The figures at `freq`: the chain's totals there, its worst corner
+    /// and the worse end of the range; `None` when the budget names no such
+    /// frequency.
+    pub fn figures_at(
+        &self,
+        freq: f64,
+    ) -> Option<(Totals<Db>, &Corner, Option<&TemperatureResult>)> {
+        let same = |f: f64| same_frequency(f, freq);
+        self.results
+            .iter()
+            .find(|r| same(r.frequency_hz))
+            .map(|r| (r.cmrr_db, &r.corner, r.at_temperature.as_ref()))
+            .or_else(|| {
+                self.frequencies
+                    .iter()
+                    .find(|f| same(f.frequency_hz))
+                    .map(|f| (f.cmrr_db, &f.corner, f.at_temperature.as_ref()))
+            })
+    }
+
+    /// The worst corner at `freq` over the temperatures judged: the worse
+    /// of the figures shown and the worse end of the range.
+    pub fn worst_corner_at(&self, freq: f64) -> Option<&Corner> {
+        let (_, shown, end) = self.figures_at(freq)?;
+        Some(match end {
+            Some(t) if t.corner.cmrr_db.0 < shown.cmrr_db.0 => &t.corner,
+            _ => shown,
+        })
+    }
+}
+
 /// The contribution rows at the temperature a point is judged at.
 fn judged_rows<'a>(
     judged: &JudgedFigure,
