@@ -342,7 +342,7 @@ fn inamp_first_stage_mismatch_is_independent_of_gain() {
 /// against log gain; common practice, no source), and its gain law.
 #[test]
 fn integrated_inamp_block() {
-    let chain = "  - integrated_inamp:\n      gain_resistor: 494\n      gain_law: {base: 1, constant: 49.4k}\n      cmrr_by_gain:\n        - {gain: 10, cmrr: 95 dB}\n        - {gain: 1000, cmrr: 125 dB}\n      cmrr_corner: 200 Hz\n";
+    let chain = "  - integrated_inamp:\n      gain_resistor: 400\n      gain_law: {base: 1, constant: 40k}\n      cmrr_by_gain:\n        - {gain: 10, cmrr: 95 dB}\n        - {gain: 1000, cmrr: 125 dB}\n      cmrr_corner: 200 Hz\n";
     let b = budget(chain);
     let analysis = at(&b, 0.0);
     assert_relative_eq!(analysis.differential_gain.re, 101.0, max_relative = 1e-12);
