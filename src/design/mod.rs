@@ -10,7 +10,7 @@ pub use knobs::{
 };
 
 use crate::model::{Budget, Variation};
-use crate::montecarlo::production::production_yield;
+use crate::montecarlo::production::production_yield_judged;
 use crate::montecarlo::{TemperatureMode, YieldOptions};
 use crate::stage::StageKind;
 use crate::verdict::{judge as judge_budget, ContributionKind, Report, Status, VerdictError};
@@ -48,8 +48,8 @@ pub enum DesignError {
     #[error(transparent)]
     Verdict(#[from] VerdictError),
     /// The Monte Carlo failed.
-    #[error("{0}")]
-    Yield(String),
+    #[error(transparent)]
+    Yield(#[from] crate::montecarlo::production::YieldReportError),
 }
 
 /// One setting tried.
@@ -141,8 +141,15 @@ fn judge(budget: &Budget, goal: Goal) -> Result<Judged, DesignError> {
                 seed,
                 temperature,
             };
-            let (report, _) = production_yield(budget, options, &|_| {}, &AtomicBool::new(false))
-                .map_err(|e| DesignError::Yield(e.to_string()))?;
+            // The run's temperatures are the verdict's (drawn over the
+            // range, judged over it), so the verdict serves the run too.
+            let (report, _) = production_yield_judged(
+                budget,
+                &verdict,
+                options,
+                &|_| {},
+                &AtomicBool::new(false),
+            )?;
             let achieved = report.overall_yield.map_or(1.0, |y| y.fraction);
             Ok(Judged {
                 meets: holds && achieved >= fraction,

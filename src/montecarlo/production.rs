@@ -9,7 +9,9 @@ use super::{
 use crate::engine::HeadroomFinding;
 use crate::model::Budget;
 use crate::quantity::{AmplitudeForm, SpreadShape};
-use crate::verdict::{judge_with, Corner, Db, Operating, Status, VerdictError, SCHEMA_VERSION};
+use crate::verdict::{
+    judge_with, Corner, Db, Operating, Report, Status, VerdictError, SCHEMA_VERSION,
+};
 use serde::Serialize;
 use std::sync::atomic::AtomicBool;
 
@@ -219,16 +221,33 @@ pub fn production_yield(
     progress: &(dyn Fn(u64) + Sync),
     stop: &AtomicBool,
 ) -> Result<(YieldReport, YieldRun), YieldReportError> {
-    let frequencies = analysis_frequencies(budget);
-    let checks = trial_checks(budget, &frequencies);
-    let run = run_yield(budget, &frequencies, &checks, options, progress, stop)?;
-    let operating = match options.temperature {
+    let verdict = judge_with(budget, operating_of(options.temperature))?;
+    production_yield_judged(budget, &verdict, options, progress, stop)
+}
+
+/// The verdict's temperatures for a run whose temperature sits at `mode`.
+pub fn operating_of(mode: TemperatureMode) -> Operating {
+    match mode {
         TemperatureMode::Reference => Operating::Reference,
         TemperatureMode::Drawn => Operating::OverRange,
         TemperatureMode::Cold => Operating::Cold,
         TemperatureMode::Hot => Operating::Hot,
-    };
-    let verdict = judge_with(budget, operating)?;
+    }
+}
+
+/// [`production_yield`] with the verdict already judged (as
+/// `judge_with(budget, operating_of(options.temperature))`), so a caller
+/// that has it does not judge twice.
+pub fn production_yield_judged(
+    budget: &Budget,
+    verdict: &Report,
+    options: YieldOptions,
+    progress: &(dyn Fn(u64) + Sync),
+    stop: &AtomicBool,
+) -> Result<(YieldReport, YieldRun), YieldReportError> {
+    let frequencies = analysis_frequencies(budget);
+    let checks = trial_checks(budget, &frequencies);
+    let run = run_yield(budget, &frequencies, &checks, options, progress, stop)?;
     let mut frequency_yields = Vec::new();
     for (index, &freq) in run.frequencies.iter().enumerate() {
         let histogram = &run.histograms[index];
