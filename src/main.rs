@@ -318,6 +318,20 @@ enum CliError {
     Plot(#[from] PlotError),
 }
 
+impl CliError {
+    /// 130 for a run stopped before it had anything to report, 2 for
+    /// everything else.
+    fn exit_status(&self) -> u8 {
+        match self {
+            CliError::InFile {
+                source: Failure::Yield(YieldReportError::NoTrials),
+                ..
+            } => INTERRUPTED,
+            _ => BAD_INPUT,
+        }
+    }
+}
+
 /// What failed in a computation on a valid budget.
 #[derive(Debug, thiserror::Error)]
 enum Failure {
@@ -345,14 +359,21 @@ fn in_file<E: Into<Failure>>(file: &Path) -> impl FnOnce(E) -> CliError + '_ {
 const MET: u8 = 0;
 const MISSED: u8 = 1;
 const BAD_INPUT: u8 = 2;
+/// A Monte Carlo run stopped by Ctrl-C: the report covers the trials that
+/// ran (the shell's convention for an interrupt, 128 + SIGINT).
+const INTERRUPTED: u8 = 130;
+
+/// The most worker threads a run takes: far more than any machine's cores,
+/// and few enough that starting them is quick.
+const MAX_THREADS: usize = 1024;
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match run(cli) {
         Ok(code) => ExitCode::from(code),
-        Err(message) => {
-            eprintln!("error: {message}");
-            ExitCode::from(BAD_INPUT)
+        Err(error) => {
+            eprintln!("error: {error}");
+            ExitCode::from(error.exit_status())
         }
     }
 }
@@ -589,10 +610,12 @@ fn yield_command(
     plot_at: Option<&str>,
 ) -> Result<u8, CliError> {
     check_trial_count("--trials", trials)?;
-    if threads == Some(0) {
+    if let Some(n) = threads.filter(|n| *n == 0 || *n > MAX_THREADS) {
         return Err(CliError::Option {
             option: "--threads",
-            problem: "give at least 1 thread, or leave the option out to use every core".into(),
+            problem: format!(
+                "{n}: give 1 to {MAX_THREADS} threads, or leave the option out to use every core"
+            ),
         });
     }
     output.check_paths(&[file], plot)?;
@@ -709,7 +732,7 @@ fn yield_command(
         &report.render(output.format.into()),
         &cmrr_budget::report::cautions_for(&budget),
     )?;
-    Ok(MET)
+    Ok(if report.interrupted { INTERRUPTED } else { MET })
 }
 
 fn check(file: &Path) -> Result<u8, CliError> {
@@ -883,7 +906,7 @@ impl OutputArgs {
             check_output_path(output, inputs, self.force)?;
         }
         if let (Some(report), Some(plot)) = (&self.output, plot) {
-            if report == plot {
+            if resolved(report) == resolved(plot) {
                 return Err(CliError::Output {
                     path: plot.display().to_string(),
                     problem: "the report and the plot cannot go to the same file".into(),
@@ -935,37 +958,57 @@ fn print_out(text: &str) -> Result<(), CliError> {
     }
 }
 
-/// Refuse an output path that would overwrite a budget file, or an
-/// existing file without `--force`.
+/// `path` as it will be resolved by the file system: canonical when it
+/// exists, else its canonical folder joined with its name; as given when
+/// even the folder does not exist (writing there then fails, clearly).
+fn resolved(path: &Path) -> PathBuf {
+    if let Ok(full) = path.canonicalize() {
+        return full;
+    }
+    let folder = match path.parent() {
+        Some(dir) if !dir.as_os_str().is_empty() => dir,
+        _ => Path::new("."),
+    };
+    match (folder.canonicalize(), path.file_name()) {
+        (Ok(folder), Some(name)) => folder.join(name),
+        _ => path.to_path_buf(),
+    }
+}
+
+/// Refuse an output path that would overwrite a budget file, anything but
+/// a regular file (a device, a FIFO, a folder: never replaced, even with
+/// `--force`), or an existing file without `--force`.
 fn check_output_path(output: &Path, inputs: &[&Path], force: bool) -> Result<(), CliError> {
-    let is_input = inputs.iter().any(
-        |input| match (output.canonicalize(), input.canonicalize()) {
-            (Ok(a), Ok(b)) => a == b,
-            _ => false,
-        },
-    );
-    if is_input {
-        return Err(CliError::Output {
-            path: output.display().to_string(),
-            problem: "the output path is the budget file itself; choose another path".into(),
-        });
+    let refuse = |problem: &str| CliError::Output {
+        path: output.display().to_string(),
+        problem: problem.to_string(),
+    };
+    let target = resolved(output);
+    if inputs.iter().any(|input| resolved(input) == target) {
+        return Err(refuse(
+            "the output path is the budget file itself; choose another path",
+        ));
     }
-    if output.exists() && !force {
-        return Err(CliError::Output {
-            path: output.display().to_string(),
-            problem:
-                "the output file already exists; add --force to replace it, or choose another path"
-                    .into(),
-        });
+    match std::fs::symlink_metadata(&target) {
+        Ok(meta) if !meta.is_file() => Err(refuse(
+            "this is not a regular file (a folder, a device or a pipe); cmrr writes reports only to regular files, and never replaces anything else",
+        )),
+        Ok(_) if !force => Err(refuse(
+            "the output file already exists; add --force to replace it, or choose another path",
+        )),
+        _ => Ok(()),
     }
-    Ok(())
 }
 
 /// Write through a temporary file beside the target and rename it into
 /// place, so a failure never leaves a half-written file.
 fn write_file(path: &Path, text: &str) -> Result<(), CliError> {
+    let shown = path.display().to_string();
+    // Through a link, the file it names is the one replaced.
+    let target = resolved(path);
+    let path = target.as_path();
     let fail = |e: io::Error| CliError::Output {
-        path: path.display().to_string(),
+        path: shown.clone(),
         problem: format!("cannot write the report: {e}"),
     };
     let directory = match path.parent() {
@@ -973,7 +1016,7 @@ fn write_file(path: &Path, text: &str) -> Result<(), CliError> {
         _ => PathBuf::from("."),
     };
     let name = path.file_name().ok_or_else(|| CliError::Output {
-        path: path.display().to_string(),
+        path: shown.clone(),
         problem: "not a file path".into(),
     })?;
     let temporary = directory.join(format!(

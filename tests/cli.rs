@@ -335,3 +335,188 @@ fn new_stage_examples_report_their_facts() {
     assert_eq!(integrated["measurand_unit"], "kg");
     assert!(integrated["results"][0]["at_temperature"]["temperature_k"].is_number());
 }
+
+/// Issue 17: a report and a plot that name one file through different
+/// spellings are refused, as the same spelling is.
+#[test]
+fn issue_17_report_and_plot_paths_are_compared_resolved() {
+    let dir = tempfile::tempdir().unwrap();
+    let budget = dir.path().join("b.yaml");
+    fs::copy(repository().join("budgets/motor-shunt.yaml"), &budget).unwrap();
+    cmrr()
+        .current_dir(dir.path())
+        .args([
+            "sweep",
+            "b.yaml",
+            "--per-decade",
+            "2",
+            "--plot",
+            "a.svg",
+            "-o",
+            "./a.svg",
+        ])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("cannot go to the same file"));
+    cmrr()
+        .current_dir(dir.path())
+        .args(["budget", "b.yaml", "-o", "./b.yaml", "--force"])
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("the budget file itself"));
+    assert!(!dir.path().join("a.svg").exists());
+}
+
+/// Issue 17: a device or a FIFO is never replaced by a report, even with
+/// --force, and is never read as a budget (a FIFO would block, a device
+/// never end).
+#[test]
+fn issue_17_devices_and_fifos_are_neither_replaced_nor_read() {
+    let dir = tempfile::tempdir().unwrap();
+    let fifo = dir.path().join("fifo");
+    let made = std::process::Command::new("mkfifo").arg(&fifo).status();
+    let budget = repository().join("budgets/motor-shunt.yaml");
+    for target in ["/dev/null".into(), fifo.clone()] {
+        if target == fifo && !made.as_ref().is_ok_and(|s| s.success()) {
+            continue;
+        }
+        cmrr()
+            .args(["budget", budget.to_str().unwrap(), "-o"])
+            .arg(&target)
+            .arg("--force")
+            .assert()
+            .code(2)
+            .stderr(predicates::str::contains("not a regular file"));
+    }
+    if made.is_ok_and(|s| s.success()) {
+        assert!(fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo_like());
+        cmrr()
+            .arg("check")
+            .arg(&fifo)
+            .timeout(std::time::Duration::from_secs(20))
+            .assert()
+            .code(2)
+            .stderr(predicates::str::contains("not a regular file"));
+    }
+    cmrr()
+        .args(["check", "/dev/zero"])
+        .timeout(std::time::Duration::from_secs(20))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("not a regular file"));
+}
+
+/// A FIFO's file type, without a platform-specific import in the test.
+trait FifoLike {
+    fn is_fifo_like(&self) -> bool;
+}
+
+impl FifoLike for fs::FileType {
+    fn is_fifo_like(&self) -> bool {
+        !self.is_file() && !self.is_dir() && !self.is_symlink()
+    }
+}
+
+/// Issue 17: a budget file past the size cap, or with invalid UTF-8, is
+/// refused with a located message.
+#[test]
+fn issue_17_oversized_and_non_utf8_files_are_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let big = dir.path().join("big.yaml");
+    fs::write(&big, "# padding\n".repeat(120_000)).unwrap();
+    cmrr()
+        .arg("check")
+        .arg(&big)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains(
+            "more than the 1048576 a budget may have",
+        ));
+    let bad = dir.path().join("bad.yaml");
+    fs::write(&bad, b"name: x\n\xff\n").unwrap();
+    cmrr()
+        .arg("check")
+        .arg(&bad)
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains(
+            "bad.yaml:2:1: the file is not valid UTF-8",
+        ));
+}
+
+/// Issue 17: a budget naming more analysis frequencies than a run takes is
+/// refused at once, not analysed for minutes.
+#[test]
+fn issue_17_analysis_points_are_bounded() {
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("many.yaml");
+    let frequencies: Vec<String> = (1..=20_000).map(|i| format!("{i} Hz")).collect();
+    fs::write(
+        &file,
+        format!(
+            "name: many\nchain:\n  - difference_amp: {{r1: 10k ±0.1 %, r2: 10k ±0.1 %, r3: 10k ±0.1 %, r4: 10k ±0.1 %}}\nextra_frequencies: [{}]\n",
+            frequencies.join(", ")
+        ),
+    )
+    .unwrap();
+    cmrr()
+        .arg("budget")
+        .arg(&file)
+        .timeout(std::time::Duration::from_secs(20))
+        .assert()
+        .code(2)
+        .stderr(predicates::str::contains("field `extra_frequencies`"))
+        .stderr(predicates::str::contains(
+            "more than the 1000 one run takes",
+        ));
+}
+
+/// Issue 17: thread counts are capped, and refused at once beyond the cap.
+#[test]
+fn issue_17_thread_counts_are_capped() {
+    for threads in ["0", "100000"] {
+        cmrr()
+            .current_dir(repository())
+            .args(["yield", "budgets/motor-shunt.yaml", "--threads", threads])
+            .timeout(std::time::Duration::from_secs(20))
+            .assert()
+            .code(2)
+            .stderr(predicates::str::contains("option --threads"));
+    }
+}
+
+/// Issue 17: a yield run stopped by Ctrl-C reports the trials that ran and
+/// exits 130, not 0 as if complete.
+#[test]
+fn issue_17_an_interrupted_yield_has_its_own_exit_status() {
+    let binary = assert_cmd::cargo::cargo_bin("cmrr");
+    let mut child = std::process::Command::new(binary)
+        .current_dir(repository())
+        .args([
+            "yield",
+            "budgets/bjt-pair-resistor-tail.yaml",
+            "--trials",
+            "100000000",
+        ])
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    std::thread::sleep(std::time::Duration::from_millis(1500));
+    let sent = std::process::Command::new("kill")
+        .args(["-INT", &child.id().to_string()])
+        .status();
+    if !sent.is_ok_and(|s| s.success()) {
+        let _ = child.kill();
+        let _ = child.wait();
+        return; // no `kill` on this machine: nothing to check
+    }
+    let output = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert_eq!(output.status.code(), Some(130), "{stderr}");
+    assert!(stderr.contains("interrupted"), "{stderr}");
+    assert!(String::from_utf8_lossy(&output.stdout).contains("CMRR production spread"));
+}

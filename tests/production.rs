@@ -353,3 +353,20 @@ fn fast_evaluator_matches_the_general_engine() {
     }
     assert!(checked >= 8, "only {checked} budgets had a fast form");
 }
+
+/// A run stopped before its first trial reports no figures (there are
+/// none) rather than NaN percentiles.
+#[test]
+fn issue_17_a_run_stopped_at_once_reports_no_nan() {
+    use cmrr_budget::montecarlo::production::{production_yield, YieldReportError};
+    let root = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let b = cmrr_budget::budget::load_budget(&root.join("budgets/load-cell-scale.yaml")).unwrap();
+    let options = YieldOptions {
+        trials: 1000,
+        seed: 1,
+        temperature: TemperatureMode::Reference,
+    };
+    let stop = std::sync::atomic::AtomicBool::new(true);
+    let result = production_yield(&b, options, &|_| {}, &stop);
+    assert_eq!(result.unwrap_err(), YieldReportError::NoTrials);
+}

@@ -13,11 +13,56 @@ pub use locate::{Position, SourceMap};
 use crate::model::Budget;
 use std::path::Path;
 
-/// Read and validate the budget file at `path`.
+/// The largest budget file read, in bytes. The biggest example is a few
+/// kilobytes; a file past this is not a budget someone wrote.
+pub const MAX_BUDGET_BYTES: u64 = 1 << 20;
+
+/// Read and validate the budget file at `path`. Only a regular file is
+/// read (never a device or a FIFO, which could block or never end), and
+/// only up to [`MAX_BUDGET_BYTES`].
 pub fn load_budget(path: &Path) -> Result<Budget, LoadError> {
-    let text = std::fs::read_to_string(path).map_err(|source| LoadError::Read {
+    let refuse = |problem: String, fix: &str| {
+        LoadError::Invalid(vec![Diagnostic {
+            file: path.display().to_string(),
+            position: None,
+            field: None,
+            problem,
+            fix: Some(fix.to_string()),
+        }])
+    };
+    let read_error = |source| LoadError::Read {
         path: path.to_path_buf(),
         source,
+    };
+    let metadata = std::fs::metadata(path).map_err(read_error)?;
+    if !metadata.is_file() {
+        return Err(refuse(
+            "this is not a regular file (a folder, device or pipe), so it is not read as a budget"
+                .into(),
+            "give the path of a budget file (YAML), e.g. budgets/load-cell-scale.yaml",
+        ));
+    }
+    if metadata.len() > MAX_BUDGET_BYTES {
+        return Err(refuse(
+            format!(
+                "the file holds {} bytes, more than the {MAX_BUDGET_BYTES} a budget may have",
+                metadata.len()
+            ),
+            "a budget describes one front end in a few kilobytes; check that this is the right file",
+        ));
+    }
+    let bytes = std::fs::read(path).map_err(read_error)?;
+    let text = String::from_utf8(bytes).map_err(|error| {
+        let valid = &error.as_bytes()[..error.utf8_error().valid_up_to()];
+        let line = valid.iter().filter(|b| **b == b'\n').count() + 1;
+        let column = valid.iter().rev().take_while(|b| **b != b'\n').count() + 1;
+        LoadError::Invalid(vec![Diagnostic {
+            file: path.display().to_string(),
+            position: Some(Position { line, column }),
+            field: None,
+            problem: "the file is not valid UTF-8 text here".into(),
+            fix: Some("save the budget as UTF-8 (the usual encoding of YAML); `Ω` and `±` may also be written `ohm` and `+-`".into()),
+        }])
     })?;
     parse_budget(&text, &path.display().to_string())
 }

@@ -154,6 +154,10 @@ pub enum YieldReportError {
     /// The verdict could not be reached.
     #[error(transparent)]
     Verdict(#[from] VerdictError),
+    /// The run was stopped before any trial finished: there is no spread
+    /// to report.
+    #[error("stopped before any trial finished: there is no spread to report")]
+    NoTrials,
 }
 
 fn shape_name(shape: SpreadShape) -> &'static str {
@@ -248,6 +252,9 @@ pub fn production_yield_judged(
     let frequencies = analysis_frequencies(budget);
     let checks = trial_checks(budget, &frequencies);
     let run = run_yield(budget, &frequencies, &checks, options, progress, stop)?;
+    if run.trials_run == 0 {
+        return Err(YieldReportError::NoTrials);
+    }
     let mut frequency_yields = Vec::new();
     for (index, &freq) in run.frequencies.iter().enumerate() {
         let histogram = &run.histograms[index];

@@ -12,6 +12,11 @@ use super::error::Diagnostic;
 use super::locate::SourceMap;
 use super::raw::{PerLeg, RawBudget, RawStage, Scalar};
 use crate::engine::MAX_STAGES;
+
+/// The most analysis frequencies (interference sources, required minima and
+/// extra frequencies together) one budget may name: each is a full analysis
+/// with its corner search at up to three temperatures.
+pub const MAX_POINTS: usize = 1000;
 use crate::model::{
     Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, TemperatureRange,
     Variation,
@@ -31,6 +36,9 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
         parameters: Parameters::new(),
         temperature: None,
     };
+    if !v.bounded(&raw) {
+        return Err(v.problems);
+    }
     let budget = v.budget(raw);
     if v.problems.is_empty() {
         Ok(budget)
@@ -216,6 +224,35 @@ impl Validator<'_> {
             Some(value) => self.leg_parts(value, path, dimension, name, stage),
             None => [None, None],
         }
+    }
+
+    /// Refuse a budget whose lists would make an unbounded run: more
+    /// analysis points (interference sources, required minima, extra
+    /// frequencies) than [`MAX_POINTS`]. Returns whether it is within.
+    fn bounded(&mut self, raw: &RawBudget) -> bool {
+        let lists = [
+            ("interference", raw.interference.len()),
+            ("extra_frequencies", raw.extra_frequencies.len()),
+            (
+                "requirement.min_cmrr",
+                raw.requirement.as_ref().map_or(0, |r| r.min_cmrr.len()),
+            ),
+        ];
+        let total: usize = lists.iter().map(|(_, n)| n).sum();
+        if total <= MAX_POINTS {
+            return true;
+        }
+        let (field, count) = lists
+            .iter()
+            .max_by_key(|(_, n)| *n)
+            .copied()
+            .unwrap_or(("interference", total));
+        self.problem(
+            field,
+            format!("the budget names {total} analysis frequencies ({count} here), more than the {MAX_POINTS} one run takes"),
+            "name the frequencies that matter (interference sources, required minima), and use `cmrr sweep` for a curve",
+        );
+        false
     }
 
     fn budget(&mut self, raw: RawBudget) -> Budget {
