@@ -14,6 +14,21 @@ pub enum EngineError {
     /// A stage's circuit is singular.
     #[error(transparent)]
     Singular(#[from] SingularStage),
+    /// A stage of the chain, named by its label, is singular.
+    #[error("stage `{label}`: {cause}; a likely cause is a part of that stage at an extreme (an open or shorted resistor, a gain or gain-bandwidth far from its neighbours'): check its values")]
+    InStage {
+        /// The stage's label.
+        label: String,
+        /// What failed.
+        cause: SingularStage,
+    },
+    /// The solve overflowed or lost every digit: values too far apart in
+    /// magnitude to combine in double precision.
+    #[error("the solve at {} gives no finite result: the budget's values are too far apart in magnitude to combine; check the largest and smallest values (resistances, capacitances, gains)", crate::quantity::format_si(*.freq_hz, "Hz"))]
+    NotFinite {
+        /// The frequency.
+        freq_hz: f64,
+    },
     /// More stages than [`MAX_STAGES`].
     #[error("the chain has {count} stages; at most {MAX_STAGES} are supported")]
     TooManyStages {
@@ -22,7 +37,7 @@ pub enum EngineError {
     },
     /// The chain passes no differential signal, so nothing can be referred
     /// to its input.
-    #[error("the chain has no differential gain at {freq_hz} Hz, so errors cannot be referred to its input")]
+    #[error("the chain has no differential gain at {}, so errors cannot be referred to its input; a likely cause is a stage whose gain is zero there (a gain resistor, gain or gain-bandwidth at an extreme)", crate::quantity::format_si(*.freq_hz, "Hz"))]
     NoDifferentialGain {
         /// The frequency.
         freq_hz: f64,
@@ -57,10 +72,23 @@ pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, Engin
     let loads = stage_loads(chain, point)?;
     let mut total = Mat2::IDENTITY;
     for (stage, load) in chain.iter().zip(&loads) {
-        total = stage.kind.transfer(point, load)? * total;
+        let transfer = stage
+            .kind
+            .transfer(point, load)
+            .map_err(|cause| EngineError::InStage {
+                label: stage.label.clone(),
+                cause,
+            })?;
+        total = transfer * total;
     }
     let response = MixedMode::from_nodes(&total);
-    if response.dd.norm() == 0.0 || !response.dd.norm().is_finite() {
+    let gain = response.dd.norm();
+    if gain.is_nan() || !response.dc.norm().is_finite() {
+        return Err(EngineError::NotFinite {
+            freq_hz: point.freq_hz,
+        });
+    }
+    if gain == 0.0 || !gain.is_finite() {
         return Err(EngineError::NoDifferentialGain {
             freq_hz: point.freq_hz,
         });

@@ -68,6 +68,34 @@ impl Dimension {
         }
     }
 
+    /// The magnitudes a value of this dimension may take in a budget, in
+    /// SI units (decibels and gains as linear ratios), from `low` to
+    /// `high`; zero is judged by the field (some take it, some do not).
+    /// Wide enough for any front end an engineer draws, narrow enough that
+    /// the solve stays in double precision's range: a value outside is a
+    /// slip (a missing prefix, a stray exponent), not a design. The README
+    /// lists the same table.
+    pub fn plausible(self) -> (f64, f64) {
+        match self {
+            Dimension::Resistance => (1e-6, 1e15),
+            Dimension::Conductance => (1e-15, 1e6),
+            Dimension::Capacitance => (1e-18, 1.0),
+            Dimension::Inductance => (1e-12, 1e3),
+            Dimension::Frequency => (1e-6, 1e12),
+            Dimension::Voltage => (1e-12, 1e12),
+            Dimension::Current => (1e-18, 1e3),
+            Dimension::Time => (1e-15, 1e6),
+            Dimension::Temperature => (1.0, 1000.0),
+            Dimension::Length => (1e-6, 1e5),
+            Dimension::CapacitancePerLength => (1e-15, 1e-6),
+            Dimension::Fraction => (1e-12, 1e3),
+            Dimension::TemperatureCoefficient => (1e-12, 1e-2),
+            Dimension::Decibels => (1e-6, 1e15),
+            Dimension::Gain => (1e-6, 1e12),
+            Dimension::Number => (1e-12, 1e12),
+        }
+    }
+
     /// The SI unit symbol used when printing a value of this dimension.
     pub fn symbol(self) -> &'static str {
         match self {

@@ -71,7 +71,7 @@ impl<'a> Point<'a> {
 
 /// Why a stage has no unique small-signal solution at a point.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("the {stage} has no unique small-signal solution at {freq_hz} Hz (a singular circuit)")]
+#[error("the {stage} has no unique small-signal solution at {} (a singular circuit)", crate::quantity::format_si(*.freq_hz, "Hz"))]
 pub struct SingularStage {
     /// The stage kind that failed.
     pub stage: &'static str,

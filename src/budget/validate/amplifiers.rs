@@ -255,7 +255,9 @@ impl Validator<'_> {
     /// tolerance); a problem naming `fix` otherwise.
     fn plain_voltage(&mut self, raw: &Scalar, path: &str, fix: &str) -> Option<f64> {
         match crate::quantity::parse_quantity(&raw.0, Dimension::Voltage) {
-            Ok(q) if q.form.is_none() && q.tolerance.is_none() => Some(q.value),
+            Ok(q) if q.form.is_none() && q.tolerance.is_none() => self
+                .plausible(raw, path, Dimension::Voltage, q.value)
+                .then_some(q.value),
             Ok(_) => {
                 self.problem(
                     path,

@@ -116,6 +116,20 @@ impl Validator<'_> {
             );
             return None;
         }
+        if !self.plausible(scalar, path, dimension, quantity.value) {
+            return None;
+        }
+        if let Some(t) = quantity.tolerance.filter(|t| *t != 0.0 && *t < 1e-12) {
+            self.problem(
+                path,
+                format!(
+                    "`{}` has a tolerance of {t:e}, below the 1e-12 (0.000001 ppm) any part is made to",
+                    scalar.0.trim()
+                ),
+                "write the tolerance as a part's data sheet states it, e.g. `±0.01 %` or `±5 ppm`",
+            );
+            return None;
+        }
         if quantity.tolerance.is_some() && !tolerance_allowed {
             self.problem(
                 path,
@@ -128,6 +142,36 @@ impl Validator<'_> {
             return None;
         }
         Some(quantity)
+    }
+
+    /// Whether `value` (of `dimension`, as parsed from `scalar`) lies in the
+    /// plausible range of its kind ([`Dimension::plausible`]); a problem
+    /// naming the range otherwise. Zero passes: the field's own range rule
+    /// decides it.
+    fn plausible(&mut self, scalar: &Scalar, path: &str, dimension: Dimension, value: f64) -> bool {
+        let (low, high) = dimension.plausible();
+        let magnitude = value.abs();
+        if value == 0.0 || (low..=high).contains(&magnitude) {
+            return true;
+        }
+        let symbol = dimension.symbol();
+        let shown = |v: f64| match dimension {
+            Dimension::Decibels => format!("{:.0} dB", 20.0 * v.log10()),
+            Dimension::Fraction => crate::quantity::format_fraction(v),
+            Dimension::TemperatureCoefficient => format!("{} ppm/K", v * 1e6),
+            _ => crate::quantity::format_si(v, symbol),
+        };
+        self.problem(
+            path,
+            format!(
+                "`{}` is outside what a {dimension} in a front end can be ({} to {} in magnitude)",
+                scalar.0.trim(),
+                shown(low),
+                shown(high)
+            ),
+            "check the prefix and the exponent (`10k`, not `10e300`); the README lists these ranges",
+        );
+        false
     }
 
     /// Register a circuit part (a toleranced value) as a parameter.
