@@ -180,7 +180,7 @@ fn suggest_fix(message: &str, taken: impl Fn(&str) -> bool) -> Option<String> {
     }
     if let Some(rest) = message.strip_prefix("missing field ") {
         let name = rest.trim_matches('`');
-        return Some(format!("add `{name}: …` here"));
+        return Some(format!("add `{name}: …` here; if it is there, check its indentation: a stage's fields sit deeper than its name, all at one depth (`- difference_amp:` then `    {name}: …`)"));
     }
     if message.contains("while scanning") || message.contains("while parsing") {
         return Some("this is not valid YAML: check quotes, brackets and indentation (spaces only, no tabs) on this line and the one before".into());
@@ -207,9 +207,8 @@ mod tests {
         let message = "unknown variant `diff_amp`, expected `source` or `difference_amp`";
         let fix = suggest_fix(message, none).unwrap();
         assert!(fix.contains("`difference_amp`"), "{fix}");
-        assert_eq!(
-            suggest_fix("missing field `r4`", none).unwrap(),
-            "add `r4: …` here"
-        );
+        assert!(suggest_fix("missing field `r4`", none)
+            .unwrap()
+            .starts_with("add `r4: …` here; if it is there, check its indentation"));
     }
 }

@@ -205,15 +205,50 @@ pub fn parse_quantity(text: &str, expected: Dimension) -> Result<Quantity, Quant
     if trimmed.is_empty() {
         return Err(QuantityError::Empty { expected });
     }
-    let (value_part, tolerance, distribution) = split_tolerance(trimmed)?;
+    let (value_part, tolerance, distribution) = split_tolerance(trimmed, expected)?;
     let mut quantity = parse_value(value_part.trim(), trimmed, expected)?;
-    quantity.tolerance = tolerance;
+    quantity.tolerance = match tolerance {
+        Some(Tolerance::Relative(t)) => Some(t),
+        Some(Tolerance::Absolute(t)) => Some(relative_of(t, quantity.value, trimmed)?),
+        None => None,
+    };
     quantity.distribution = distribution;
     Ok(quantity)
 }
 
-/// Split `10k ±0.1 %` into `10k` and the tolerance fraction.
-fn split_tolerance(text: &str) -> Result<(&str, Option<f64>, Option<SpreadShape>), QuantityError> {
+/// A tolerance as written: a fraction (`±1 %`), or an amount of the value's
+/// own dimension (`5 pF ±0.5 pF`).
+enum Tolerance {
+    Relative(f64),
+    Absolute(f64),
+}
+
+/// An absolute tolerance as a fraction of `value`.
+fn relative_of(absolute: f64, value: f64, text: &str) -> Result<f64, QuantityError> {
+    let bad = |reason: &str| QuantityError::BadTolerance {
+        text: text.to_string(),
+        reason: reason.to_string(),
+    };
+    if value == 0.0 {
+        return Err(bad(
+            "an absolute tolerance needs a value to be relative to; give it as a percentage",
+        ));
+    }
+    let relative = absolute / value.abs();
+    if relative >= 1.0 {
+        return Err(bad(
+            "the tolerance is as large as the value or larger; tolerances are below 100 %",
+        ));
+    }
+    Ok(relative)
+}
+
+/// Split `10k ±0.1 %` into `10k` and the tolerance (a fraction, or an
+/// amount in the field's own unit: `5 pF ±0.5 pF`).
+fn split_tolerance(
+    text: &str,
+    expected: Dimension,
+) -> Result<(&str, Option<Tolerance>, Option<SpreadShape>), QuantityError> {
     let marker = ["±", "+/-", "+-"]
         .iter()
         .filter_map(|m| text.find(m).map(|at| (at, m.len())))
@@ -241,8 +276,24 @@ fn split_tolerance(text: &str) -> Result<(&str, Option<f64>, Option<SpreadShape>
     if tolerance_text.is_empty() {
         return Err(bad("nothing follows `±`; write e.g. `±0.1 %` or `±50 ppm`"));
     }
-    let parsed = parse_value(tolerance_text, tolerance_text, Dimension::Fraction)
-        .map_err(|_| bad("write it as a percentage or ppm, e.g. `±0.1 %` or `±50 ppm`"))?;
+    if let Ok(absolute) = parse_value(tolerance_text, tolerance_text, expected) {
+        let written_with_unit = tolerance_text
+            .chars()
+            .any(|c| c.is_alphabetic() || c == 'Ω');
+        if absolute.dimension == expected && written_with_unit && expected != Dimension::Fraction {
+            if absolute.value < 0.0 {
+                return Err(bad("a tolerance is a magnitude; drop the sign after `±`"));
+            }
+            return Ok((
+                &text[..at],
+                Some(Tolerance::Absolute(absolute.value)),
+                shape,
+            ));
+        }
+    }
+    let parsed = parse_value(tolerance_text, tolerance_text, Dimension::Fraction).map_err(|_| {
+        bad("write it as a percentage or ppm, e.g. `±0.1 %` or `±50 ppm`, or as an amount in the value's unit, e.g. `5 pF ±0.5 pF`")
+    })?;
     if parsed.value < 0.0 {
         return Err(bad("a tolerance is a magnitude; drop the sign after `±`"));
     }
@@ -251,7 +302,21 @@ fn split_tolerance(text: &str) -> Result<(&str, Option<f64>, Option<SpreadShape>
             "a tolerance of 100 % or more is not physical; tolerances are below 100 %",
         ));
     }
-    Ok((&text[..at], Some(parsed.value), shape))
+    Ok((&text[..at], Some(Tolerance::Relative(parsed.value)), shape))
+}
+
+/// `Vrms`, `mVpp`, `uV_pk`, `Vp-p`: a voltage unit with its form glued on,
+/// split into the unit and the form.
+fn glued_form(word: &str) -> Option<(&str, AmplitudeForm)> {
+    for suffix in ["rms", "pk", "pp", "p-p"] {
+        if let Some(unit) = word.strip_suffix(suffix) {
+            let unit = unit.trim_end_matches('_');
+            if unit.ends_with('V') && unit.chars().count() <= 2 {
+                return Some((unit, amplitude_form(suffix)?));
+            }
+        }
+    }
+    None
 }
 
 /// Parse a number with optional prefix, unit and amplitude form.
@@ -294,8 +359,26 @@ fn parse_value(text: &str, whole: &str, expected: Dimension) -> Result<Quantity,
             words.pop();
             Some(form)
         }
-        None => None,
+        None => match words.last().and_then(|w| glued_form(w)) {
+            Some((unit, form)) => {
+                words.pop();
+                words.push(unit);
+                Some(form)
+            }
+            None => None,
+        },
     };
+    // `10k 1%`: a tolerance written without its `±`.
+    if words.len() >= 2
+        && words[1..].iter().any(|w| {
+            w.starts_with(|c: char| c.is_ascii_digit()) && (w.ends_with('%') || w.ends_with("ppm"))
+        })
+    {
+        return Err(QuantityError::BadTolerance {
+            text: whole.to_string(),
+            reason: "a tolerance follows `±`: write e.g. `10k ±1 %`".to_string(),
+        });
+    }
     // `200k V/V`: a prefix glued to the number, the unit after a space.
     let joined;
     if words.len() == 2 && prefix_multiplier(words[0]).is_some() {
@@ -339,7 +422,7 @@ fn amplitude_form(word: &str) -> Option<AmplitudeForm> {
     match word {
         "rms" | "RMS" => Some(AmplitudeForm::Rms),
         "pk" | "peak" | "Pk" => Some(AmplitudeForm::Peak),
-        "pp" | "p-p" | "Vpp" | "pk-pk" => Some(AmplitudeForm::PeakToPeak),
+        "pp" | "p-p" | "pk-pk" => Some(AmplitudeForm::PeakToPeak),
         _ => None,
     }
 }
@@ -511,6 +594,32 @@ fn resolve_unit(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// Spellings engineers write (issue 17): a form glued to the unit, an
+    /// absolute tolerance in the value's unit, and a missing `±` told as
+    /// such.
+    #[test]
+    fn issue_17_notation_engineers_write() {
+        for (text, volts, form) in [
+            ("1 Vrms", 1.0, AmplitudeForm::Rms),
+            ("1Vrms", 1.0, AmplitudeForm::Rms),
+            ("300 mVpp", 0.3, AmplitudeForm::PeakToPeak),
+            ("5 µV_pk", 5e-6, AmplitudeForm::Peak),
+            ("2 Vp-p", 2.0, AmplitudeForm::PeakToPeak),
+        ] {
+            let q = parse_quantity(text, Dimension::Voltage).unwrap();
+            assert!((q.value - volts).abs() < 1e-15, "{text}");
+            assert_eq!(q.form, Some(form), "{text}");
+        }
+        let q = parse_quantity("5 pF ±0.5 pF", Dimension::Capacitance).unwrap();
+        assert!((q.tolerance.unwrap() - 0.1).abs() < 1e-12);
+        let q = parse_quantity("10k ±10", Dimension::Resistance).unwrap_err();
+        assert!(matches!(q, QuantityError::BadTolerance { .. }));
+        let q = parse_quantity("1k ±2k", Dimension::Resistance).unwrap_err();
+        assert!(q.to_string().contains("as large as the value"), "{q}");
+        let q = parse_quantity("10k 1%", Dimension::Resistance).unwrap_err();
+        assert!(q.to_string().contains("a tolerance follows `±`"), "{q}");
+    }
     use approx::assert_relative_eq;
 
     fn value(text: &str, dimension: Dimension) -> f64 {
