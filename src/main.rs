@@ -4,7 +4,7 @@
 //! usage.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use cmrr_budget::budget::{load_budget, LoadError};
+use cmrr_budget::budget::{load_budget, read_budget, LoadError};
 use cmrr_budget::design::{
     is_trimmable, trim_effect, DesignError, Goal, Knob, KnobKind, TrimMethod,
 };
@@ -33,6 +33,35 @@ use std::process::ExitCode;
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Print nothing on standard error but errors: no progress bar, and no
+    /// echo of the cautions when the report goes to a file (the report
+    /// itself still carries them).
+    #[arg(long, global = true)]
+    quiet: bool,
+}
+
+/// Whether `--quiet` was given.
+static QUIET: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
+
+fn quiet() -> bool {
+    QUIET.get().copied().unwrap_or(false)
+}
+
+/// The path that stands for standard input (a budget) or standard output
+/// (a report).
+const STANDARD_STREAM: &str = "-";
+
+fn is_standard_stream(path: &Path) -> bool {
+    path.as_os_str() == STANDARD_STREAM
+}
+
+/// Read the budget at `file`, or from standard input for `-`.
+fn load(file: &Path) -> Result<Budget, CliError> {
+    if is_standard_stream(file) {
+        Ok(read_budget(io::stdin().lock(), "standard input")?)
+    } else {
+        Ok(load_budget(file)?)
+    }
 }
 
 #[derive(Debug, Subcommand)]
@@ -40,21 +69,34 @@ enum Command {
     /// Compute the CMRR budget of a budget file: per interference source,
     /// each contributor's share, the totals, and the verdict.
     Budget {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         #[command(flatten)]
         output: OutputArgs,
     },
     /// Validate a budget file without computing it.
     Check {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
+        /// `table` for readable messages (default), `json` for every
+        /// problem as data (file, position, field, problem, fix).
+        #[arg(long, value_enum, default_value_t = CheckFormat::Table)]
+        format: CheckFormat,
     },
+    /// Print a completion script for a shell (bash, zsh, fish, elvish,
+    /// powershell) on standard output.
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff) on standard output, e.g.
+    /// `cmrr manual > cmrr.1`.
+    Manual,
     /// Sweep the budget over frequency: the totals and every contributor's
     /// CMRR at log-spaced frequencies, and where the dominant contributor
     /// changes.
     Sweep {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         #[command(flatten)]
         range: RangeArgs,
@@ -75,7 +117,7 @@ enum Command {
     /// error percentiles, yield against the requirement with its confidence
     /// interval, and the worst sign corner.
     Yield {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         /// How many trials (1 to 100000000).
         #[arg(long, default_value_t = 10_000)]
@@ -106,7 +148,7 @@ enum Command {
     /// capacitor matching, the allowed source imbalance, TCR tracking, an
     /// in-amp's first-stage gain, or a pair's tail resistance.
     Size {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         /// The parameter to size.
         #[arg(long, value_enum)]
@@ -130,7 +172,7 @@ enum Command {
     /// What must change: each contributor against an equal share of the
     /// allowed error, and what halving each tolerance buys.
     Improve {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         /// Also rank by the Monte Carlo yield gained, with this many trials
         /// per parameter (same seed throughout).
@@ -145,7 +187,7 @@ enum Command {
     /// The effect of trimming a difference stage at DC: CMRR before and
     /// after, at the interference frequencies and over temperature.
     Trim {
-        /// The budget file (YAML).
+        /// The budget file (YAML), or `-` for standard input.
         file: PathBuf,
         /// The stage's label (a difference amplifier or a three-op-amp
         /// in-amp; default: the first such stage).
@@ -185,7 +227,8 @@ struct OutputArgs {
     /// Output format.
     #[arg(long, value_enum, default_value_t = Format::Table)]
     format: Format,
-    /// Write the report to this file instead of standard output.
+    /// Write the report to this file instead of standard output (`-`:
+    /// standard output).
     #[arg(short = 'o', long = "output", value_name = "PATH")]
     output: Option<PathBuf>,
     /// Replace output files (report, plot) that already exist.
@@ -224,6 +267,15 @@ enum VaryArg {
     FirstStageGain,
     /// A differential pair's tail resistance.
     Tail,
+}
+
+/// How `cmrr check` reports.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum CheckFormat {
+    /// Readable messages.
+    Table,
+    /// Every problem as JSON.
+    Json,
 }
 
 /// How `cmrr trim` trims.
@@ -369,6 +421,7 @@ const MAX_THREADS: usize = 1024;
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    let _ = QUIET.set(cli.quiet);
     match run(cli) {
         Ok(code) => ExitCode::from(code),
         Err(error) => {
@@ -380,7 +433,25 @@ fn main() -> ExitCode {
 
 fn run(cli: Cli) -> Result<u8, CliError> {
     match cli.command {
-        Command::Check { file } => check(&file),
+        Command::Check { file, format } => check(&file, format),
+        Command::Completions { shell } => {
+            let mut command = <Cli as clap::CommandFactory>::command();
+            let mut text = Vec::new();
+            clap_complete::generate(shell, &mut command, "cmrr", &mut text);
+            print_out(&String::from_utf8_lossy(&text))?;
+            Ok(MET)
+        }
+        Command::Manual => {
+            let mut text = Vec::new();
+            clap_mangen::Man::new(<Cli as clap::CommandFactory>::command())
+                .render(&mut text)
+                .map_err(|e| CliError::Output {
+                    path: "standard output".into(),
+                    problem: format!("cannot render the manual: {e}"),
+                })?;
+            print_out(&String::from_utf8_lossy(&text))?;
+            Ok(MET)
+        }
         Command::Budget { file, output } => budget(&file, &output),
         Command::Sweep {
             file,
@@ -458,7 +529,7 @@ fn size(
     output: &OutputArgs,
 ) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let kind = match vary {
         VaryArg::Resistors => KnobKind::Resistors,
         VaryArg::NetworkRatio => KnobKind::NetworkRatio,
@@ -521,7 +592,7 @@ fn improve(
         check_trial_count("--yield-trials", trials)?;
     }
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let base = judge(&budget).map_err(in_file(file))?;
     let allocation = cmrr_budget::design::allocate(&base);
     let sensitivity = cmrr_budget::design::sensitivity(&budget, yield_trials.map(|t| (t, seed)))
@@ -544,7 +615,7 @@ fn trim(
         TrimMethodArg::Ratio => TrimMethod::Ratio,
     };
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let resolution = parse_quantity(resolution, Dimension::Fraction)
         .map_err(|e| CliError::Option {
             option: "--resolution",
@@ -619,7 +690,7 @@ fn yield_command(
         });
     }
     output.check_paths(&[file], plot)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let mode = match temperature {
         Some(TemperatureArg::Reference) => TemperatureMode::Reference,
         Some(TemperatureArg::Drawn) => TemperatureMode::Drawn,
@@ -648,7 +719,7 @@ fn yield_command(
             }
         });
     }
-    let bar = if std::io::stderr().is_terminal() {
+    let bar = if std::io::stderr().is_terminal() && !quiet() {
         let bar = indicatif::ProgressBar::new(trials);
         bar.set_style(
             indicatif::ProgressStyle::with_template(
@@ -735,16 +806,40 @@ fn yield_command(
     Ok(if report.interrupted { INTERRUPTED } else { MET })
 }
 
-fn check(file: &Path) -> Result<u8, CliError> {
-    let budget = load_budget(file)?;
+fn check(file: &Path, format: CheckFormat) -> Result<u8, CliError> {
+    if format == CheckFormat::Json {
+        let outcome = load(file);
+        let (valid, problems) = match &outcome {
+            Ok(_) => (true, Vec::new()),
+            Err(CliError::Load(LoadError::Invalid(diagnostics))) => (false, diagnostics.clone()),
+            Err(_) => return outcome.map(|_| MET),
+        };
+        let document = serde_json::json!({
+            "report": "check",
+            "schema_version": cmrr_budget::report::SCHEMA_VERSION,
+            "file": if is_standard_stream(file) { "standard input".to_string() } else { file.display().to_string() },
+            "valid": valid,
+            "problems": problems,
+        });
+        print_out(&format!(
+            "{}\n",
+            serde_json::to_string_pretty(&document).expect("a check result serialises")
+        ))?;
+        return Ok(if valid { MET } else { BAD_INPUT });
+    }
+    let budget = load(file)?;
     let amplifiers = budget
         .chain
         .iter()
         .filter(|s| s.kind.is_amplifier())
         .count();
+    let shown = if is_standard_stream(file) {
+        "standard input".to_string()
+    } else {
+        file.display().to_string()
+    };
     print_out(&format!(
-        "{}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} toleranced parameter(s)\n",
-        file.display(),
+        "{shown}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} toleranced parameter(s)\n",
         budget.name,
         budget.chain.len(),
         amplifiers,
@@ -756,7 +851,7 @@ fn check(file: &Path) -> Result<u8, CliError> {
 
 fn budget(file: &Path, output: &OutputArgs) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let report = judge(&budget).map_err(in_file(file))?;
     output.emit(&report.render(output.format.into()), &report.cautions)?;
     Ok(exit_status(&report))
@@ -776,7 +871,7 @@ fn sweep(
         ));
     }
     output.check_paths(&[file], plot)?;
-    let budget = load_budget(file)?;
+    let budget = load(file)?;
     let spec = range.spec(Some(&budget))?;
     let operating = match temperature {
         None | Some(SweepTemperature::Reference) => Operating::Reference,
@@ -814,7 +909,7 @@ fn compare(
     output.check_paths(&inputs, plot)?;
     let mut budgets: Vec<(&Path, Budget)> = Vec::new();
     for file in files {
-        budgets.push((file.as_path(), load_budget(file)?));
+        budgets.push((file.as_path(), load(file)?));
     }
     let mut reports: Vec<(String, Report)> = Vec::new();
     for (file, budget) in &budgets {
@@ -902,7 +997,18 @@ impl OutputArgs {
     /// Refuse outputs that would overwrite an input, or an existing file
     /// without `--force`.
     fn check_paths(&self, inputs: &[&Path], plot: Option<&Path>) -> Result<(), CliError> {
-        for output in self.output.iter().map(PathBuf::as_path).chain(plot) {
+        if plot.is_some_and(is_standard_stream) {
+            return Err(CliError::Usage(
+                "--plot - : the plot goes to a file; standard output is for the report (`-o -`)",
+            ));
+        }
+        for output in self
+            .output
+            .iter()
+            .map(PathBuf::as_path)
+            .chain(plot)
+            .filter(|p| !is_standard_stream(p))
+        {
             check_output_path(output, inputs, self.force)?;
         }
         if let (Some(report), Some(plot)) = (&self.output, plot) {
@@ -920,14 +1026,16 @@ impl OutputArgs {
     /// standard error when the report goes to a file.
     fn emit(&self, text: &str, cautions: &[String]) -> Result<(), CliError> {
         match &self.output {
-            Some(path) => {
+            Some(path) if !is_standard_stream(path) => {
                 write_file(path, text)?;
-                for caution in cautions {
-                    eprintln!("{caution}");
+                if !quiet() {
+                    for caution in cautions {
+                        eprintln!("{caution}");
+                    }
                 }
                 Ok(())
             }
-            None => print_out(text),
+            _ => print_out(text),
         }
     }
 }

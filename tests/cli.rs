@@ -520,3 +520,77 @@ fn issue_17_an_interrupted_yield_has_its_own_exit_status() {
     assert!(stderr.contains("interrupted"), "{stderr}");
     assert!(String::from_utf8_lossy(&output.stdout).contains("CMRR production spread"));
 }
+
+/// Issue 17: `-` reads the budget from standard input and `-o -` writes
+/// the report to standard output.
+#[test]
+fn issue_17_standard_input_and_output() {
+    let text = fs::read_to_string(repository().join("budgets/motor-shunt.yaml")).unwrap();
+    cmrr()
+        .args(["check", "-"])
+        .write_stdin(text.clone())
+        .assert()
+        .code(0)
+        .stdout(predicates::str::starts_with("standard input: valid budget"));
+    cmrr()
+        .args(["budget", "-", "-o", "-", "--format", "csv"])
+        .write_stdin(text)
+        .assert()
+        .code(1)
+        .stdout(predicates::str::starts_with("source,frequency_hz"));
+    cmrr()
+        .args(["check", "-"])
+        .write_stdin("name: x\n\u{0}\u{ff}")
+        .assert()
+        .code(2);
+}
+
+/// Issue 17: `check --format json` lists every problem as data.
+#[test]
+fn issue_17_check_reports_problems_as_json() {
+    let output = cmrr()
+        .current_dir(repository())
+        .args([
+            "check",
+            "budgets/invalid/values/wrong-unit.yaml",
+            "--format",
+            "json",
+        ])
+        .assert()
+        .code(2);
+    let document: serde_json::Value = serde_json::from_slice(&output.get_output().stdout).unwrap();
+    assert_eq!(document["report"], "check");
+    assert_eq!(document["valid"], false);
+    let problem = &document["problems"][0];
+    assert_eq!(problem["position"]["line"], 5);
+    assert_eq!(problem["field"], "chain[0].difference_amp.r1");
+    assert!(problem["fix"].as_str().unwrap().contains("resistance"));
+}
+
+/// Issue 17: completions and the manual page come from the same
+/// definitions the program parses with; `--quiet` keeps standard error for
+/// errors.
+#[test]
+fn issue_17_completions_manual_and_quiet() {
+    for shell in ["bash", "zsh", "fish"] {
+        let output = cmrr().args(["completions", shell]).assert().code(0);
+        let text = String::from_utf8(output.get_output().stdout.clone()).unwrap();
+        assert!(text.contains("first-stage-gain"), "{shell}");
+    }
+    let output = cmrr().arg("manual").assert().code(0);
+    let text = String::from_utf8(output.get_output().stdout.clone()).unwrap();
+    assert!(text.contains(".TH cmrr 1"));
+    let dir = tempfile::tempdir().unwrap();
+    let report = dir.path().join("r.txt");
+    cmrr()
+        .current_dir(repository())
+        .args(["--quiet", "budget", "budgets/ecg-electrodes.yaml", "-o"])
+        .arg(&report)
+        .assert()
+        .code(1)
+        .stderr("");
+    assert!(
+        fs::read_to_string(&report).unwrap().contains("CAUTION")
+            || fs::read_to_string(&report).unwrap().contains("aution")
+    );
+}

@@ -6,8 +6,9 @@ use std::fmt;
 use std::path::PathBuf;
 use thiserror::Error;
 
-/// One problem found in a budget file.
-#[derive(Debug, Clone, PartialEq)]
+/// One problem found in a budget file (serialised as `cmrr check
+/// --format json` writes it).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Diagnostic {
     /// The file, as the user named it.
     pub file: String,

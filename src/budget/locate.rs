@@ -10,7 +10,7 @@ use saphyr_parser::{Event, Parser};
 use std::collections::HashMap;
 
 /// A 1-based line and column in the budget file.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub struct Position {
     /// Line, from 1.
     pub line: usize,

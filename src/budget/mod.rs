@@ -11,6 +11,7 @@ pub use error::{Diagnostic, LoadError};
 pub use locate::{Position, SourceMap};
 
 use crate::model::Budget;
+use std::io::Read;
 use std::path::Path;
 
 /// The largest budget file read, in bytes. The biggest example is a few
@@ -52,19 +53,48 @@ pub fn load_budget(path: &Path) -> Result<Budget, LoadError> {
         ));
     }
     let bytes = std::fs::read(path).map_err(read_error)?;
-    let text = String::from_utf8(bytes).map_err(|error| {
-        let valid = &error.as_bytes()[..error.utf8_error().valid_up_to()];
+    parse_budget_bytes(&bytes, &path.display().to_string())
+}
+
+/// Read and validate a budget from `reader` (standard input, say), at most
+/// [`MAX_BUDGET_BYTES`] of it; `file` names it in messages.
+pub fn read_budget(reader: impl std::io::Read, file: &str) -> Result<Budget, LoadError> {
+    let mut bytes = Vec::new();
+    reader
+        .take(MAX_BUDGET_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|source| LoadError::Read {
+            path: file.into(),
+            source,
+        })?;
+    if bytes.len() as u64 > MAX_BUDGET_BYTES {
+        return Err(LoadError::Invalid(vec![Diagnostic {
+            file: file.to_string(),
+            position: None,
+            field: None,
+            problem: format!("more than the {MAX_BUDGET_BYTES} bytes a budget may have"),
+            fix: Some("a budget describes one front end in a few kilobytes; check that this is the right input".into()),
+        }]));
+    }
+    parse_budget_bytes(&bytes, file)
+}
+
+/// Decode budget-file bytes as UTF-8 (a located problem where they are
+/// not) and validate them.
+fn parse_budget_bytes(bytes: &[u8], file: &str) -> Result<Budget, LoadError> {
+    let text = std::str::from_utf8(bytes).map_err(|error| {
+        let valid = &bytes[..error.valid_up_to()];
         let line = valid.iter().filter(|b| **b == b'\n').count() + 1;
         let column = valid.iter().rev().take_while(|b| **b != b'\n').count() + 1;
         LoadError::Invalid(vec![Diagnostic {
-            file: path.display().to_string(),
+            file: file.to_string(),
             position: Some(Position { line, column }),
             field: None,
             problem: "the file is not valid UTF-8 text here".into(),
             fix: Some("save the budget as UTF-8 (the usual encoding of YAML); `Ω` and `±` may also be written `ohm` and `+-`".into()),
         }])
     })?;
-    parse_budget(&text, &path.display().to_string())
+    parse_budget(text, file)
 }
 
 /// Validate budget-file `text`; `file` names it in messages.
