@@ -97,7 +97,8 @@ fn every_example_runs_in_every_format() {
 
 /// The fields the README promises in the JSON report.
 fn check_json_contract(report: &serde_json::Value, name: &str) {
-    assert_eq!(report["schema_version"], 2, "{name}");
+    assert_eq!(report["schema_version"], 3, "{name}");
+    assert_eq!(report["report"], "budget", "{name}");
     assert!(report["budget"].is_string(), "{name}");
     let results = report["results"].as_array().expect("results is a list");
     assert!(!results.is_empty(), "{name}");
@@ -179,7 +180,7 @@ fn output_file_is_written_whole_and_never_clobbered() {
         .stdout("");
     let written: serde_json::Value =
         serde_json::from_str(&fs::read_to_string(&report).unwrap()).unwrap();
-    assert_eq!(written["schema_version"], 2);
+    assert_eq!(written["schema_version"], 3);
 
     // An existing report is kept unless --force.
     fs::write(&report, "keep me").unwrap();

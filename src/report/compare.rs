@@ -254,6 +254,8 @@ pub(crate) fn status_name(status: Status) -> &'static str {
 }
 
 impl Render for CompareReport {
+    const KIND: &'static str = "compare";
+
     fn table(&self) -> String {
         render_compare_table(self)
     }

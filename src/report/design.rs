@@ -289,6 +289,8 @@ pub fn trim_report(
 }
 
 impl Render for SizingReport {
+    const KIND: &'static str = "size";
+
     fn table(&self) -> String {
         render_sizing_table(self)
     }
@@ -317,6 +319,8 @@ impl Render for SizingReport {
 }
 
 impl Render for ImproveReport {
+    const KIND: &'static str = "improve";
+
     fn table(&self) -> String {
         render_improve_table(self)
     }
@@ -368,6 +372,8 @@ impl Render for ImproveReport {
 }
 
 impl Render for TrimReport {
+    const KIND: &'static str = "trim";
+
     fn table(&self) -> String {
         render_trim_table(self)
     }

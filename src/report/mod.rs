@@ -33,6 +33,10 @@ pub enum Format {
 
 /// A report that renders to every [`Format`].
 pub trait Render: Serialize {
+    /// The report's kind, the `report` field of its JSON: `budget`,
+    /// `sweep`, `yield`, `compare`, `size`, `improve` or `trim`.
+    const KIND: &'static str;
+
     /// The report as text for a terminal.
     fn table(&self) -> String;
 
@@ -41,7 +45,7 @@ pub trait Render: Serialize {
 
     /// The report as pretty-printed JSON, ending in a newline.
     fn json(&self) -> String {
-        json::to_json(self)
+        json::to_json(self, Self::KIND)
     }
 
     /// The report in `format`.
@@ -55,6 +59,8 @@ pub trait Render: Serialize {
 }
 
 impl Render for Report {
+    const KIND: &'static str = "budget";
+
     fn table(&self) -> String {
         table::render_table(self)
     }

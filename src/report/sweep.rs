@@ -185,6 +185,8 @@ pub fn build_sweep_report(
 }
 
 impl Render for SweepReport {
+    const KIND: &'static str = "sweep";
+
     fn table(&self) -> String {
         render_sweep_table(self)
     }

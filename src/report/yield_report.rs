@@ -12,6 +12,8 @@ use tabled::settings::object::Columns;
 use tabled::settings::{Alignment, Style};
 
 impl Render for YieldReport {
+    const KIND: &'static str = "yield";
+
     fn table(&self) -> String {
         render_yield_table(self)
     }

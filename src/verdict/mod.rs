@@ -29,7 +29,9 @@ use serde::{Serialize, Serializer};
 /// 2: the verdict has a `status` (a headroom finding makes it
 /// `does_not_hold` and `met` false); totals gain `worst_corner`; error
 /// checks compare like forms (a DC error's rms and peak are its magnitude).
-pub const SCHEMA_VERSION: u32 = 2;
+/// 3: every JSON document starts with `report` (its kind); figures are
+/// rounded to ten significant digits.
+pub const SCHEMA_VERSION: u32 = 3;
 
 /// A ratio in decibels. Serialized as a number, or as the string `"inf"`
 /// for an infinite CMRR (a perfectly matched chain); JSON has no infinity.
