@@ -789,6 +789,7 @@ fn yield_command(
         let percentiles = [
             ("0.1 %", at.cmrr_db.p0_1.0),
             ("1 %", at.cmrr_db.p1.0),
+            ("5 %", at.cmrr_db.p5.0),
             ("median", at.cmrr_db.p50.0),
         ];
         let svg = plot_histogram(

@@ -26,19 +26,29 @@ pub const TOTALS: [RGBColor; 3] = [
     RGBColor(110, 110, 110), // graphite: nominal
 ];
 
-/// Contributors and overlaid designs, in order.
-pub const SERIES: [RGBColor; 10] = [
-    RGBColor(22, 160, 133),
-    RGBColor(211, 84, 0),
-    RGBColor(125, 60, 152),
-    RGBColor(40, 116, 166),
-    RGBColor(183, 149, 11),
-    RGBColor(192, 57, 43),
-    RGBColor(17, 122, 101),
-    RGBColor(108, 52, 131),
-    RGBColor(93, 109, 126),
-    RGBColor(160, 64, 0),
+/// Contributors and overlaid designs, in order: eight hues far apart from
+/// each other and from the totals' brick and blue.
+pub const SERIES: [RGBColor; 8] = [
+    RGBColor(22, 160, 133), // teal
+    RGBColor(211, 84, 0),   // pumpkin
+    RGBColor(125, 60, 152), // plum
+    RGBColor(183, 149, 11), // mustard
+    RGBColor(93, 109, 126), // slate
+    RGBColor(39, 174, 96),  // leaf
+    RGBColor(199, 21, 133), // magenta
+    RGBColor(120, 66, 18),  // umber
 ];
+
+/// Dash patterns (drawn, gap; pixels), cycled with the colours so that no
+/// two of the first sixteen curves look alike; `None` is solid.
+pub const DASHES: [Option<(u32, u32)>; 4] = [None, Some((9, 4)), Some((2, 3)), Some((12, 3))];
+
+/// Width of the legend panel beside a plot, in pixels.
+pub const LEGEND_WIDTH: u32 = 270;
+
+/// How far above the highest total a plot's axis reaches for contributors
+/// (a contributor far above every total does not matter to the budget).
+pub const CONTRIBUTOR_HEADROOM_DB: f64 = 40.0;
 
 /// Interference markers.
 pub const INTERFERENCE: RGBColor = RGBColor(128, 128, 128);

@@ -1,7 +1,8 @@
 //! SVG plots of CMRR against frequency, drawn with plotters' SVG backend.
 
 use super::style::{
-    CEILING_DB, FONT, GRID, INK, INTERFERENCE, LABEL_SIZE, PAPER, SERIES, SIZE, TITLE_SIZE, TOTALS,
+    CEILING_DB, CONTRIBUTOR_HEADROOM_DB, DASHES, FONT, GRID, INK, INTERFERENCE, LABEL_SIZE,
+    LEGEND_WIDTH, PAPER, SERIES, SIZE, TITLE_SIZE, TOTALS,
 };
 use plotters::prelude::*;
 use thiserror::Error;
@@ -22,8 +23,32 @@ enum Pen {
     Heavy(RGBColor),
     /// Medium and dashed.
     Dashed(RGBColor),
-    /// Thin and solid.
-    Thin(RGBColor),
+    /// Thin, solid or with a dash pattern (drawn, gap).
+    Thin(RGBColor, Option<(u32, u32)>),
+}
+
+impl Pen {
+    /// The colour, line width and dash pattern.
+    fn stroke(self) -> (RGBColor, u32, Option<(u32, u32)>) {
+        match self {
+            Pen::Heavy(c) => (c, 3, None),
+            Pen::Dashed(c) => (c, 2, Some((8, 5))),
+            Pen::Thin(c, dash) => (c, 1, dash),
+        }
+    }
+
+    /// Whether the curve is a total (or a design), which sets the axis.
+    fn is_total(self) -> bool {
+        !matches!(self, Pen::Thin(..))
+    }
+}
+
+/// The `i`-th series pen: colours cycled with dash patterns.
+fn series_pen(i: usize) -> Pen {
+    Pen::Thin(
+        SERIES[i % SERIES.len()],
+        DASHES[(i / SERIES.len() + i) % DASHES.len()],
+    )
 }
 
 /// One curve: a label and (frequency Hz, CMRR dB) points.
@@ -90,7 +115,7 @@ pub fn plot_sweep(
             .map(|(i, (label, points))| Curve {
                 label,
                 points,
-                pen: Pen::Thin(SERIES[i % SERIES.len()]),
+                pen: series_pen(i),
             }),
     );
     render(&Figure {
@@ -114,7 +139,11 @@ pub fn plot_overlay(
         .map(|(i, d)| Curve {
             label: d.label.clone(),
             points: d.points.clone(),
-            pen: Pen::Heavy(SERIES[i % SERIES.len()]),
+            pen: if i < SERIES.len() {
+                Pen::Heavy(SERIES[i])
+            } else {
+                series_pen(i)
+            },
         })
         .collect();
     render(&Figure {
@@ -147,25 +176,46 @@ fn finite_segments(points: &[(f64, f64)]) -> Vec<Vec<(f64, f64)>> {
     segments
 }
 
-/// The vertical range: from the lowest value down to a multiple of 20 dB
-/// below it, to the highest (capped) rounded up.
+/// The vertical range, fitted to the data: from the lowest value down to a
+/// multiple of 20 dB, up to the highest total or requirement plus room for
+/// the contributors near it ([`CONTRIBUTOR_HEADROOM_DB`]) — or the highest
+/// contributor, if lower — rounded up to 20 dB.
 fn db_range(figure: &Figure) -> (f64, f64) {
-    let values = figure
-        .curves
-        .iter()
-        .flat_map(|c| {
-            c.points
-                .iter()
-                .filter(|p| p.1.is_finite())
-                .map(|p| clip(p.1))
+    let finite = |c: &Curve| -> Vec<f64> {
+        c.points
+            .iter()
+            .filter(|p| p.1.is_finite())
+            .map(|p| clip(p.1))
+            .collect()
+    };
+    let fold = |values: &mut dyn Iterator<Item = f64>| {
+        values.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+            (lo.min(v), hi.max(v))
         })
-        .chain(figure.requirements.iter().map(|r| r.1));
-    let (low, high) = values.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
-        (lo.min(v), hi.max(v))
-    });
-    if !low.is_finite() {
+    };
+    let requirements = figure.requirements.iter().map(|r| r.1);
+    let (total_low, total_high) = fold(
+        &mut figure
+            .curves
+            .iter()
+            .filter(|c| c.pen.is_total())
+            .flat_map(finite)
+            .chain(requirements.clone()),
+    );
+    let (all_low, all_high) = fold(&mut figure.curves.iter().flat_map(finite).chain(requirements));
+    if !all_low.is_finite() {
         return (0.0, 140.0);
     }
+    let high = if total_high.is_finite() {
+        all_high.min(total_high + CONTRIBUTOR_HEADROOM_DB)
+    } else {
+        all_high
+    };
+    let low = if total_low.is_finite() {
+        all_low.min(total_low)
+    } else {
+        all_low
+    };
     let bottom = ((low - 5.0) / 20.0).floor() * 20.0;
     let top = ((high + 5.0) / 20.0).ceil() * 20.0;
     (bottom, top.max(bottom + 40.0).min(CEILING_DB + 20.0))
@@ -193,16 +243,102 @@ fn frequency_label(f: &f64) -> String {
         .replace(".0 ", " ")
 }
 
+/// A legend line: a sample of the pen and the label.
+struct LegendEntry {
+    label: String,
+    sample: LegendSample,
+}
+
+/// What a legend line shows beside its label.
+enum LegendSample {
+    Line(Pen),
+    Triangle,
+}
+
+/// Draw `entries` down the legend panel `area`.
+fn draw_legend(
+    area: &DrawingArea<SVGBackend, plotters::coord::Shift>,
+    entries: &[LegendEntry],
+) -> Result<(), PlotError> {
+    let font = (FONT, LABEL_SIZE - 2).into_font().color(&INK);
+    let top = 70;
+    let step = 22;
+    let mut row_offset = 0;
+    for (row, entry) in entries.iter().enumerate() {
+        let y = top + row as i32 * step + row_offset;
+        if y > SIZE.1 as i32 - 20 {
+            break;
+        }
+        match entry.sample {
+            LegendSample::Line(pen) => {
+                let (color, width, dash) = pen.stroke();
+                let style = color.stroke_width(width);
+                let pieces: Vec<(i32, i32)> = match dash {
+                    None => vec![(0, 26)],
+                    Some((on, off)) => (0..26)
+                        .step_by((on + off) as usize)
+                        .map(|x| (x, (x + on as i32).min(26)))
+                        .collect(),
+                };
+                for (from, to) in pieces {
+                    area.draw(&PathElement::new(vec![(8 + from, y), (8 + to, y)], style))
+                        .map_err(failed)?;
+                }
+            }
+            LegendSample::Triangle => {
+                area.draw(&TriangleMarker::new((21, y), 6, INK.filled()))
+                    .map_err(failed)?;
+            }
+        }
+        let lines = wrapped(&entry.label, LEGEND_CHARS);
+        for (k, line) in lines.iter().enumerate() {
+            area.draw(&Text::new(
+                line.clone(),
+                (42 + if k > 0 { 10 } else { 0 }, y - 7 + k as i32 * 16),
+                font.clone(),
+            ))
+            .map_err(failed)?;
+        }
+        row_offset += lines.len().saturating_sub(1) as i32 * 16;
+    }
+    Ok(())
+}
+
+/// Characters of a legend label per line before it wraps.
+const LEGEND_CHARS: usize = 34;
+
+/// `label` broken into lines of at most about `width` characters, at a
+/// space where there is one.
+fn wrapped(label: &str, width: usize) -> Vec<String> {
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in label.split(' ') {
+        if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
+            lines.push(std::mem::take(&mut line));
+        }
+        if !line.is_empty() {
+            line.push(' ');
+        }
+        line.push_str(word);
+    }
+    if !line.is_empty() {
+        lines.push(line);
+    }
+    lines
+}
+
 fn render(figure: &Figure) -> Result<String, PlotError> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, SIZE).into_drawing_area();
         root.fill(&PAPER).map_err(failed)?;
+        let (plot_area, legend_area) = root.split_horizontally(SIZE.0 - LEGEND_WIDTH);
         let (f_low, f_high) = frequency_range(figure);
         let (db_low, db_high) = db_range(figure);
-        let mut chart = ChartBuilder::on(&root)
+        let mut chart = ChartBuilder::on(&plot_area)
             .caption(&figure.title, (FONT, TITLE_SIZE).into_font().color(&INK))
             .margin(16)
+            .margin_right(36)
             .x_label_area_size(46)
             .y_label_area_size(64)
             .build_cartesian_2d((f_low..f_high).log_scale(), db_low..db_high)
@@ -240,41 +376,39 @@ fn render(figure: &Figure) -> Result<String, PlotError> {
                 .map_err(failed)?;
         }
         // Totals first, so they lead the legend; an infinite CMRR (a matched
-        // chain) is not drawn, and a curve that is infinite throughout is
-        // named in the legend only.
+        // chain) is not drawn, a curve above the axis is drawn at its top,
+        // and a curve that is infinite throughout is named in the legend
+        // only.
+        let mut legend = Vec::new();
         for curve in &figure.curves {
-            let (color, width) = match curve.pen {
-                Pen::Heavy(c) => (c, 3),
-                Pen::Dashed(c) => (c, 2),
-                Pen::Thin(c) => (c, 1),
-            };
+            let (color, width, dash) = curve.pen.stroke();
             let style = color.stroke_width(width);
             let segments = finite_segments(&curve.points);
             if segments.is_empty() {
-                chart
-                    .draw_series(std::iter::empty::<PathElement<(f64, f64)>>())
-                    .map_err(failed)?
-                    .label(format!("{}: ∞ dB throughout", curve.label))
-                    .legend(move |(x, y)| {
-                        PathElement::new(vec![(x, y), (x + 22, y)], color.stroke_width(width))
-                    });
+                legend.push(LegendEntry {
+                    label: format!("{}: ∞ dB throughout", curve.label),
+                    sample: LegendSample::Line(curve.pen),
+                });
                 continue;
             }
-            for (index, segment) in segments.into_iter().enumerate() {
-                let drawn = match curve.pen {
-                    Pen::Dashed(_) => chart
-                        .draw_series(DashedLineSeries::new(segment, 8, 5, style))
+            for segment in segments {
+                let segment: Vec<(f64, f64)> = segment
+                    .into_iter()
+                    .map(|(f, db)| (f, db.min(db_high)))
+                    .collect();
+                match dash {
+                    Some((on, off)) => chart
+                        .draw_series(DashedLineSeries::new(segment, on, off, style))
                         .map_err(failed)?,
-                    _ => chart
+                    None => chart
                         .draw_series(LineSeries::new(segment, style))
                         .map_err(failed)?,
                 };
-                if index == 0 {
-                    drawn.label(curve.label.clone()).legend(move |(x, y)| {
-                        PathElement::new(vec![(x, y), (x + 22, y)], color.stroke_width(width))
-                    });
-                }
             }
+            legend.push(LegendEntry {
+                label: curve.label.clone(),
+                sample: LegendSample::Line(curve.pen),
+            });
         }
         if !figure.requirements.is_empty() {
             chart
@@ -284,18 +418,13 @@ fn render(figure: &Figure) -> Result<String, PlotError> {
                         .iter()
                         .map(|&(f, db)| TriangleMarker::new((f, db), 7, INK.filled())),
                 )
-                .map_err(failed)?
-                .label("required minimum")
-                .legend(|(x, y)| TriangleMarker::new((x + 11, y), 6, INK.filled()));
+                .map_err(failed)?;
+            legend.push(LegendEntry {
+                label: "required minimum".into(),
+                sample: LegendSample::Triangle,
+            });
         }
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(PAPER.mix(0.9))
-            .border_style(GRID)
-            .label_font((FONT, LABEL_SIZE - 2).into_font().color(&INK))
-            .draw()
-            .map_err(failed)?;
+        draw_legend(&legend_area, &legend)?;
         root.present().map_err(failed)?;
     }
     Ok(svg)
@@ -331,9 +460,10 @@ pub fn plot_histogram(
         let mut chart = ChartBuilder::on(&root)
             .caption(title, (FONT, TITLE_SIZE).into_font().color(&INK))
             .margin(16)
+            .margin_right(40)
             .x_label_area_size(46)
             .y_label_area_size(72)
-            .build_cartesian_2d(low..high, 0.0..tallest * 1.2)
+            .build_cartesian_2d(low..high, 0.0..tallest * 1.4)
             .map_err(failed)?;
         chart
             .configure_mesh()
@@ -361,7 +491,7 @@ pub fn plot_histogram(
         if let Some(required) = required_db {
             chart
                 .draw_series(DashedLineSeries::new(
-                    vec![(required, 0.0), (required, tallest * 1.2)],
+                    vec![(required, 0.0), (required, tallest * 1.4)],
                     4,
                     4,
                     TOTALS[0].stroke_width(2),
@@ -374,15 +504,19 @@ pub fn plot_histogram(
         }
         // A label closer to the one before than a label's width goes up a
         // row, so neighbouring percentiles stay legible.
-        let label_room = (high - low) * 0.06;
-        let mut previous: Option<(f64, usize)> = None;
+        let label_room = (high - low) * 0.08;
+        let mut placed: Vec<(f64, usize)> = Vec::new();
         for (name, db) in percentiles.iter().filter(|(_, db)| db.is_finite()) {
-            let row = match previous {
-                Some((x, row)) if db - x < label_room => (row + 1) % 2,
-                _ => 0,
-            };
-            previous = Some((*db, row));
-            let lift = row as f64 * 0.07;
+            // The lowest row with no label within a label's width.
+            let row = (0..4)
+                .find(|row| {
+                    !placed
+                        .iter()
+                        .any(|(x, r)| r == row && (db - x).abs() < label_room)
+                })
+                .unwrap_or(3);
+            placed.push((*db, row));
+            let lift = row as f64 * 0.065;
             chart
                 .draw_series(std::iter::once(PathElement::new(
                     vec![(*db, tallest * 1.02), (*db, tallest * (1.08 + lift))],
@@ -434,5 +568,39 @@ mod tests {
         assert_eq!(frequency_range(&figure), (1.0, 1e3));
         assert_eq!(frequency_label(&1e3), "1 kHz");
         assert_eq!(frequency_label(&0.1), "100 mHz");
+        assert_eq!(
+            wrapped("A2 gain-bandwidth, A1 gain-bandwidth (front end)", 34),
+            vec!["A2 gain-bandwidth, A1", "gain-bandwidth (front end)"]
+        );
+    }
+
+    /// Issue 17: the axis follows the totals, not a contributor far above
+    /// them, and no two of the first sixteen series pens are alike.
+    #[test]
+    fn issue_17_axis_fitted_and_pens_distinct() {
+        let figure = Figure {
+            title: "t".into(),
+            curves: vec![
+                Curve {
+                    label: "worst case".into(),
+                    points: vec![(1.0, 60.0), (1e3, 70.0)],
+                    pen: Pen::Heavy(INK),
+                },
+                Curve {
+                    label: "far above".into(),
+                    points: vec![(1.0, 230.0), (1e3, 230.0)],
+                    pen: series_pen(0),
+                },
+            ],
+            requirements: vec![],
+            interference: vec![],
+        };
+        assert_eq!(db_range(&figure), (40.0, 120.0));
+        let pens: Vec<Pen> = (0..16).map(series_pen).collect();
+        for (i, a) in pens.iter().enumerate() {
+            for b in &pens[i + 1..] {
+                assert_ne!(a, b);
+            }
+        }
     }
 }
