@@ -575,10 +575,7 @@ fn size(
     };
     let sizing = cmrr_budget::design::size(&budget, &knob, goal).map_err(in_file(file))?;
     let report = sizing_report(&budget.name, goal_text, sizing);
-    output.emit(
-        &report.render(output.format.into()),
-        &cmrr_budget::report::cautions_for(&budget),
-    )?;
+    output.emit_report(&report, &cmrr_budget::report::cautions_for(&budget))?;
     Ok(MET)
 }
 
@@ -599,7 +596,7 @@ fn improve(
         .map_err(in_file(file))?;
     let sources = budget.interference.iter().map(|s| s.name.clone()).collect();
     let report = improve_report(&base, sources, allocation, sensitivity);
-    output.emit(&report.render(output.format.into()), &base.cautions)?;
+    output.emit_report(&report, &base.cautions)?;
     Ok(MET)
 }
 
@@ -662,10 +659,7 @@ fn trim(
         judged_on,
         rows,
     );
-    output.emit(
-        &report.render(output.format.into()),
-        &cmrr_budget::report::cautions_for(&budget),
-    )?;
+    output.emit_report(&report, &cmrr_budget::report::cautions_for(&budget))?;
     Ok(MET)
 }
 
@@ -800,10 +794,7 @@ fn yield_command(
         )?;
         write_file(path, &svg)?;
     }
-    output.emit(
-        &report.render(output.format.into()),
-        &cmrr_budget::report::cautions_for(&budget),
-    )?;
+    output.emit_report(&report, &cmrr_budget::report::cautions_for(&budget))?;
     Ok(if report.interrupted { INTERRUPTED } else { MET })
 }
 
@@ -854,7 +845,7 @@ fn budget(file: &Path, output: &OutputArgs) -> Result<u8, CliError> {
     output.check_paths(&[file], None)?;
     let budget = load(file)?;
     let report = judge(&budget).map_err(in_file(file))?;
-    output.emit(&report.render(output.format.into()), &report.cautions)?;
+    output.emit_report(&report, &report.cautions)?;
     Ok(exit_status(&report))
 }
 
@@ -891,12 +882,11 @@ fn sweep(
         let svg = render_sweep_svg(&report)?;
         write_file(path, &svg)?;
     }
-    let text = if chart {
-        render_sweep_chart(&report)
+    if chart {
+        output.emit(&render_sweep_chart(&report), &verdict.cautions)?;
     } else {
-        report.render(output.format.into())
-    };
-    output.emit(&text, &verdict.cautions)?;
+        output.emit_report(&report, &verdict.cautions)?;
+    }
     Ok(MET)
 }
 
@@ -958,7 +948,7 @@ fn compare(
         .iter()
         .flat_map(|(_, r)| r.cautions.iter().cloned())
         .collect();
-    output.emit(&comparison.render(output.format.into()), &cautions)?;
+    output.emit_report(&comparison, &cautions)?;
     Ok(MET)
 }
 
@@ -1021,6 +1011,19 @@ impl OutputArgs {
             }
         }
         Ok(())
+    }
+
+    /// Render `report` in the chosen format and emit it. A table printed on
+    /// a terminal whose width `COLUMNS` gives is fitted to that width; a
+    /// report going to a file or a pipe never is.
+    fn emit_report<R: Render>(&self, report: &R, cautions: &[String]) -> Result<(), CliError> {
+        let to_terminal =
+            self.output.as_deref().is_none_or(is_standard_stream) && io::stdout().is_terminal();
+        let columns = std::env::var("COLUMNS")
+            .ok()
+            .and_then(|c| c.trim().parse::<usize>().ok());
+        cmrr_budget::report::layout::set_table_width(columns.filter(|_| to_terminal));
+        self.emit(&report.render(self.format.into()), cautions)
     }
 
     /// Write the text to the output file, or print it; cautions also go to

@@ -8,8 +8,6 @@ use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_si, AmplitudeForm};
 use serde::Serialize;
 use tabled::builder::Builder;
-use tabled::settings::object::Columns;
-use tabled::settings::{Alignment, Style};
 
 /// One design in a comparison.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -203,11 +201,7 @@ pub fn render_compare_table(report: &CompareReport) -> String {
                 ]),
             }
         }
-        let mut table = table.build();
-        table
-            .with(Style::rounded())
-            .modify(Columns::new(2..4), Alignment::right());
-        out.push_str(&table.to_string());
+        out.push_str(&super::layout::styled(table, 2..4));
         out.push('\n');
     }
     out

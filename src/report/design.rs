@@ -1,21 +1,12 @@
 //! Reports of the design commands: sizing, what must change, and trimming.
 
 use super::csv::{escape, number};
+use super::layout::styled;
 use super::{Render, SCHEMA_VERSION};
 use crate::design::{AllocationTable, Sensitivity, Sizing, TrimMethod, TrimRow};
 use crate::quantity::{format_db, format_share, format_si};
 use serde::Serialize;
 use tabled::builder::Builder;
-use tabled::settings::object::Columns;
-use tabled::settings::{Alignment, Style};
-
-fn styled(builder: Builder, numeric_from: usize) -> String {
-    let mut table = builder.build();
-    table
-        .with(Style::rounded())
-        .modify(Columns::new(numeric_from..), Alignment::right());
-    table.to_string()
-}
 
 /// `cmrr size` as JSON.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -55,7 +46,7 @@ pub fn render_sizing_table(report: &SizingReport) -> String {
             step.yield_fraction.map_or("—".into(), format_share),
         ]);
     }
-    out.push_str(&styled(table, 2));
+    out.push_str(&styled(table, 2..usize::MAX));
     out.push('\n');
     match (&s.answer, &s.blocker) {
         (Some(answer), _) => out.push_str(&format!(
@@ -138,7 +129,7 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
                 },
             ]);
         }
-        out.push_str(&styled(builder, 3));
+        out.push_str(&styled(builder, 3..usize::MAX));
         out.push('\n');
     }
     out.push_str(
@@ -170,7 +161,7 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
         }
         builder.push_record(record);
     }
-    out.push_str(&styled(builder, 3));
+    out.push_str(&styled(builder, 3..usize::MAX));
     out.push('\n');
     let hidden = report.sensitivity.len() - shown.len().min(SENSITIVITY_ROWS);
     if hidden > 0 {
@@ -236,7 +227,7 @@ pub fn render_trim_table(report: &TrimReport) -> String {
             row.after_over_temperature_db.map_or("—".into(), format_db),
         ]);
     }
-    out.push_str(&styled(builder, 2));
+    out.push_str(&styled(builder, 2..usize::MAX));
     out.push('\n');
     out
 }

@@ -8,6 +8,7 @@ pub mod compare;
 pub mod csv;
 pub mod design;
 pub mod json;
+pub mod layout;
 pub mod sweep;
 pub mod table;
 pub mod yield_report;

@@ -9,8 +9,6 @@ use crate::quantity::{format_db, format_si};
 use crate::sweep::{DominantChange, Sweep, SweepContributor};
 use serde::Serialize;
 use tabled::builder::Builder;
-use tabled::settings::object::Columns;
-use tabled::settings::{Alignment, Style};
 
 /// One frequency of the sweep.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -225,11 +223,7 @@ pub fn render_sweep_table(report: &SweepReport) -> String {
             row.dominant.clone().unwrap_or_else(|| "none".into()),
         ]);
     }
-    let mut table = table.build();
-    table
-        .with(Style::rounded())
-        .modify(Columns::new(0..4), Alignment::right());
-    out.push_str(&table.to_string());
+    out.push_str(&super::layout::styled(table, 0..4));
     out.push('\n');
     out.push_str(&exact_lines(report));
     out

@@ -1,6 +1,7 @@
 //! The terminal report: per interference source, a contribution table and
 //! a totals table, then the requirement and the verdict.
 
+use super::layout::styled;
 use super::{
     ContributionRow, Corner, FrequencyResult, JudgedFigure, Report, RequirementOutcome,
     SourceResult, Status, TemperatureResult,
@@ -9,8 +10,6 @@ use crate::model::describe_volts;
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
 use crate::verdict::TOTALS;
 use tabled::builder::Builder;
-use tabled::settings::object::Columns;
-use tabled::settings::{Alignment, Style};
 
 /// The report as text for a terminal.
 pub fn render_table(report: &Report) -> String {
@@ -228,15 +227,7 @@ fn contribution_table(rows: &[ContributionRow], form: Option<AmplitudeForm>) -> 
     if rows.is_empty() {
         return "no contributor varies: every part is taken as exact\n".to_string();
     }
-    styled(table, 3)
-}
-
-fn styled(builder: Builder, first_numeric_column: usize) -> String {
-    let mut table = builder.build();
-    table
-        .with(Style::rounded())
-        .modify(Columns::new(first_numeric_column..), Alignment::right());
-    table.to_string()
+    styled(table, 3..usize::MAX)
 }
 
 /// The totals table, the corner line and the requirement, which end every
@@ -248,7 +239,7 @@ fn section_end(
     form: Option<AmplitudeForm>,
     (judged, requirement): (&JudgedFigure, Option<&RequirementOutcome>),
 ) -> String {
-    let mut out = styled(totals, 1);
+    let mut out = styled(totals, 1..usize::MAX);
     out.push('\n');
     out.push_str(&corner_lines(corner));
     if let Some(result) = at_temperature {

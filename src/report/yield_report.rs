@@ -8,8 +8,6 @@ use crate::montecarlo::{TemperatureMode, YieldRun};
 use crate::quantity::{format_db, format_share, format_si};
 use crate::verdict::Status;
 use tabled::builder::Builder;
-use tabled::settings::object::Columns;
-use tabled::settings::{Alignment, Style};
 
 impl Render for YieldReport {
     const KIND: &'static str = "yield";
@@ -94,12 +92,8 @@ pub fn render_yield_table(report: &YieldReport) -> String {
             },
         ]);
     }
-    let mut table = table.build();
-    table
-        .with(Style::rounded())
-        .modify(Columns::new(0..8), Alignment::right());
     out.push_str("\nCMRR that the given share of units falls below\n");
-    out.push_str(&table.to_string());
+    out.push_str(&super::layout::styled(table, 0..8));
     out.push('\n');
     let mut table = Builder::default();
     table.push_record(["source", "median error", "95 %", "99 %", "99.9 %", "yield"]);
@@ -114,12 +108,8 @@ pub fn render_yield_table(report: &YieldReport) -> String {
             s.yield_figure.as_ref().map_or("no limit".into(), percent),
         ]);
     }
-    let mut table = table.build();
-    table
-        .with(Style::rounded())
-        .modify(Columns::new(1..5), Alignment::right());
     out.push_str("\nerror referred to the input that the given share of units stays under\n");
-    out.push_str(&table.to_string());
+    out.push_str(&super::layout::styled(table, 1..5));
     out.push('\n');
     match (&report.overall_yield, report.status) {
         (Some(y), Status::DoesNotHold) => out.push_str(&format!(
