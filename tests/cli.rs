@@ -595,3 +595,17 @@ fn issue_17_completions_manual_and_quiet() {
             || fs::read_to_string(&report).unwrap().contains("aution")
     );
 }
+
+/// Issue 17: every problem of a file is reported in one run, in the order
+/// of its lines (the requirement is checked before the interference
+/// sources, yet a source written above it is reported first).
+#[test]
+fn issue_17_all_problems_in_line_order() {
+    let text = "name: order\nchain:\n  - difference_amp: {r1: 10k, r2: 10k, r3: 10k, r4: 10k}\ninterference:\n  - {name: hum, amplitude: 1 V, frequency: 50 Hz}\nrequirement:\n  full_scale: -10 mV\n";
+    let budget = cmrr_budget::budget::parse_budget(text, "order.yaml").unwrap_err();
+    let message = budget.to_string();
+    let source = message.find("order.yaml:5:").expect(&message);
+    let requirement = message.find("order.yaml:7:").expect(&message);
+    assert!(source < requirement, "{message}");
+    assert!(message.contains("2 problems found"), "{message}");
+}

@@ -43,6 +43,12 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
     if v.problems.is_empty() {
         Ok(budget)
     } else {
+        // Every problem, in the order of the file (those without a line
+        // last, in the order found).
+        v.problems.sort_by_key(|d| {
+            d.position
+                .map_or((usize::MAX, usize::MAX), |p| (p.line, p.column))
+        });
         Err(v.problems)
     }
 }
