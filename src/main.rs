@@ -92,6 +92,9 @@ enum Command {
     /// Print the manual page (roff) on standard output, e.g.
     /// `cmrr manual > cmrr.1`.
     Manual,
+    /// Print the budget file's JSON Schema on standard output, for an
+    /// editor to validate and complete budget files against.
+    Schema,
     /// Sweep the budget over frequency: the totals and every contributor's
     /// CMRR at log-spaced frequencies, and where the dominant contributor
     /// changes.
@@ -439,6 +442,10 @@ fn run(cli: Cli) -> Result<u8, CliError> {
             let mut text = Vec::new();
             clap_complete::generate(shell, &mut command, "cmrr", &mut text);
             print_out(&String::from_utf8_lossy(&text))?;
+            Ok(MET)
+        }
+        Command::Schema => {
+            print_out(&cmrr_budget::budget::budget_schema())?;
             Ok(MET)
         }
         Command::Manual => {

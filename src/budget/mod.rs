@@ -9,6 +9,7 @@ mod validate;
 
 pub use error::{Diagnostic, LoadError};
 pub use locate::{Position, SourceMap};
+pub use raw::budget_schema;
 
 use crate::model::Budget;
 use std::io::Read;

@@ -2,13 +2,15 @@
 //! the YAML (which fields exist, which are maps or lists). Values stay text
 //! until the validator parses them against their field's dimension.
 
+use schemars::JsonSchema;
 use serde::de::{self, Deserializer, MapAccess, Visitor};
 use serde::Deserialize;
 use std::fmt;
 
 /// The whole budget file.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
+#[schemars(rename = "BudgetFile")]
 pub struct RawBudget {
     pub name: String,
     #[serde(default)]
@@ -18,6 +20,7 @@ pub struct RawBudget {
     #[serde(default)]
     pub mains_referenced: Option<bool>,
     #[serde(with = "serde_yaml::with::singleton_map_recursive")]
+    #[schemars(with = "Vec<RawStage>")]
     pub chain: Vec<RawStage>,
     #[serde(default)]
     pub interference: Vec<RawInterference>,
@@ -36,7 +39,7 @@ pub struct RawBudget {
 }
 
 /// The default spread of toleranced values.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawProduction {
     #[serde(default)]
@@ -46,7 +49,7 @@ pub struct RawProduction {
 }
 
 /// A spread shape.
-#[derive(Debug, Clone, Copy, Deserialize)]
+#[derive(Debug, Clone, Copy, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RawShape {
     Uniform,
@@ -55,7 +58,7 @@ pub enum RawShape {
 }
 
 /// The default range of `cmrr sweep` for this budget.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawSweep {
     #[serde(default)]
@@ -67,7 +70,7 @@ pub struct RawSweep {
 }
 
 /// The measured quantity, to express errors in its units.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawMeasurand {
     pub unit: String,
@@ -78,7 +81,7 @@ pub struct RawMeasurand {
 }
 
 /// A bridge sensor's rating: output per volt of excitation at capacity.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawBridgeRating {
     pub sensitivity: Scalar,
@@ -87,7 +90,7 @@ pub struct RawBridgeRating {
 }
 
 /// The operating temperature range.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawTemperature {
     pub reference: Scalar,
@@ -96,7 +99,7 @@ pub struct RawTemperature {
 
 /// A stage's resistors as one matched network: a shared absolute
 /// tolerance, a ratio tolerance, and temperature coefficients.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawNetwork {
     #[serde(default)]
@@ -110,7 +113,7 @@ pub struct RawNetwork {
 }
 
 /// One stage, written as a map with a single key naming its kind.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RawStage {
     Source(Box<RawSource>),
@@ -122,7 +125,7 @@ pub enum RawStage {
 }
 
 /// A differential-input converter.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawAdc {
     #[serde(default)]
@@ -140,7 +143,7 @@ pub struct RawAdc {
 }
 
 /// The source network.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawSource {
     #[serde(default)]
@@ -166,7 +169,7 @@ pub struct RawSource {
 }
 
 /// The cable between the sensor and the board.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawCable {
     pub capacitance: PerLeg,
@@ -176,7 +179,7 @@ pub struct RawCable {
 }
 
 /// The four-resistor difference amplifier.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawDifferenceAmp {
     #[serde(default)]
@@ -198,7 +201,7 @@ pub struct RawDifferenceAmp {
 }
 
 /// The three-op-amp instrumentation amplifier.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawThreeOpAmpInAmp {
     #[serde(default)]
@@ -218,7 +221,7 @@ pub struct RawThreeOpAmpInAmp {
 }
 
 /// An integrated instrumentation amplifier.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawIntegratedInAmp {
     #[serde(default)]
@@ -254,7 +257,7 @@ pub struct RawIntegratedInAmp {
 }
 
 /// `G = base + constant / RG`.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawGainLaw {
     pub base: Scalar,
@@ -262,7 +265,7 @@ pub struct RawGainLaw {
 }
 
 /// A minimum CMRR at one gain.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawCmrrAtGain {
     pub gain: Scalar,
@@ -270,7 +273,7 @@ pub struct RawCmrrAtGain {
 }
 
 /// A discrete long-tailed pair.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawDifferentialPair {
     #[serde(default)]
@@ -310,7 +313,7 @@ pub struct RawDifferentialPair {
 }
 
 /// The pair's device type.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RawPairDevice {
     Bjt,
@@ -319,7 +322,7 @@ pub enum RawPairDevice {
 }
 
 /// The pair's output.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RawPairOutput {
     Differential,
@@ -327,7 +330,7 @@ pub enum RawPairOutput {
 }
 
 /// The pair's tail: one kind, and its capacitance.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawTail {
     #[serde(default)]
@@ -345,7 +348,7 @@ pub struct RawTail {
 }
 
 /// The transistor(s) making a tail current.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawTailDevice {
     pub early_voltage: Scalar,
@@ -358,7 +361,7 @@ pub struct RawTailDevice {
 }
 
 /// An op-amp's data.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawOpAmp {
     #[serde(default)]
@@ -380,7 +383,7 @@ pub struct RawOpAmp {
 }
 
 /// A common-mode interference source.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawInterference {
     pub name: String,
@@ -391,7 +394,7 @@ pub struct RawInterference {
 }
 
 /// What the design must achieve.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawRequirement {
     #[serde(default)]
@@ -405,7 +408,7 @@ pub struct RawRequirement {
 }
 
 /// Which total a requirement is judged on.
-#[derive(Debug, Clone, Copy, Deserialize)]
+#[derive(Debug, Clone, Copy, Deserialize, JsonSchema)]
 #[serde(rename_all = "snake_case")]
 pub enum RawJudgement {
     WorstCase,
@@ -415,7 +418,7 @@ pub enum RawJudgement {
 }
 
 /// A minimum CMRR at one frequency.
-#[derive(Debug, Deserialize)]
+#[derive(Debug, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
 pub struct RawMinimumCmrr {
     pub at: Scalar,
@@ -530,4 +533,48 @@ impl<'de> Visitor<'de> for PerLegVisitor {
             (_, None) => Err(de::Error::missing_field("n")),
         }
     }
+}
+
+impl JsonSchema for Scalar {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "Quantity".into()
+    }
+
+    fn json_schema(_: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        schemars::json_schema!({
+            "description": "A value as an engineer writes it: a number, an optional SI prefix, an optional unit, an optional form (rms, pk, pp) and tolerance, e.g. `10k ±0.1 %`, `4.7 nF`, `1 V rms`, `110 dB`, `50 Hz`.",
+            "type": ["string", "number"]
+        })
+    }
+}
+
+impl JsonSchema for PerLeg {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "PerLegQuantity".into()
+    }
+
+    fn json_schema(generator: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        let one = generator.subschema_for::<Scalar>();
+        schemars::json_schema!({
+            "description": "One value for both legs (each within its own tolerance), or a value per leg: `{p: 51k, n: 62k}`.",
+            "anyOf": [
+                one,
+                {
+                    "type": "object",
+                    "properties": {"p": one, "n": one},
+                    "required": ["p", "n"],
+                    "additionalProperties": false
+                }
+            ]
+        })
+    }
+}
+
+/// The budget file's JSON Schema (draft 2020-12), generated from the raw
+/// schema types, as `cmrr schema` prints it.
+pub fn budget_schema() -> String {
+    let schema = schemars::schema_for!(RawBudget);
+    let mut text = serde_json::to_string_pretty(&schema).expect("a schema serializes");
+    text.push('\n');
+    text
 }
