@@ -250,23 +250,42 @@ fn continuous(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Vec<Step>, Des
         steps.push(bottom);
         return Ok(steps);
     }
+    let start = steps.last().expect("a step was tried").clone();
+    // The least setting that meets: meeting settings sit at the top.
+    steps.push(log_bisect(budget, knob, goal, (low, high), start, |s| {
+        !s.meets
+    })?);
+    Ok(steps)
+}
+
+/// Log bisection between `low` and `high` for the boundary of `below`: the
+/// settings where `below(step)` holds lie under the boundary, the others
+/// above it. Returns the last step tried on the side `best` is on
+/// (`best`'s side is `below(best)`), to a relative resolution of 1e-4.
+fn log_bisect(
+    budget: &Budget,
+    knob: &Knob,
+    goal: Goal,
+    (low, high): (f64, f64),
+    best: Step,
+    below: impl Fn(&Step) -> bool,
+) -> Result<Step, DesignError> {
+    let keep_below = below(&best);
     let (mut lo, mut hi) = (low.ln(), high.ln());
-    let mut best = steps.last().expect("a step was tried").clone();
-    for _ in 0..40 {
+    let mut best = best;
+    while hi - lo >= 1e-4 {
         let mid = ((lo + hi) / 2.0).exp();
         let trial = step(knob, budget, mid, knob.describe(mid), goal)?;
-        if trial.meets {
-            hi = mid.ln();
-            best = trial;
-        } else {
+        if below(&trial) {
             lo = mid.ln();
+        } else {
+            hi = mid.ln();
         }
-        if hi - lo < 1e-4 {
-            break;
+        if below(&trial) == keep_below {
+            best = trial;
         }
     }
-    steps.push(best);
-    Ok(steps)
+    Ok(best)
 }
 
 /// The highest setting between `low` and `high` (which does not hold)
@@ -282,19 +301,15 @@ fn highest_holding(
     if !bottom.holds {
         return Ok(None);
     }
-    let (mut lo, mut hi) = (low.ln(), high.ln());
-    let mut best = bottom;
-    while hi - lo >= 1e-4 {
-        let mid = ((lo + hi) / 2.0).exp();
-        let trial = step(knob, budget, mid, knob.describe(mid), goal)?;
-        if trial.holds {
-            lo = mid.ln();
-            best = trial;
-        } else {
-            hi = mid.ln();
-        }
-    }
-    Ok(Some(best))
+    // Holding settings sit at the bottom.
+    Ok(Some(log_bisect(
+        budget,
+        knob,
+        goal,
+        (low, high),
+        bottom,
+        |s| s.holds,
+    )?))
 }
 
 /// Where the requirement is tightest in `budget`: the largest contributor
