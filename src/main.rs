@@ -654,17 +654,13 @@ fn trim(
                 ))
             })?,
     };
-    let rows = trim_effect(&budget, index, resolution, method).map_err(in_file(file))?;
-    let judged_on = budget
-        .requirement
-        .as_ref()
-        .map_or(cmrr_budget::model::Judgement::WorstCase, |r| r.judged_on);
+    let effect = trim_effect(&budget, index, resolution, method).map_err(in_file(file))?;
     let report = trim_report(
         &budget.name,
         &budget.chain[index].label,
         (resolution, method),
-        judged_on,
-        rows,
+        effect.judged_on,
+        effect.rows,
     );
     output.emit_report(&report, &cmrr_budget::report::cautions_for(&budget))?;
     Ok(MET)
@@ -878,11 +874,7 @@ fn sweep(
         Some(SweepTemperature::Hot) => Operating::Hot,
     };
     let verdict = judge_with(&budget, operating).map_err(in_file(file))?;
-    let delta_t = match (operating, budget.temperature) {
-        (Operating::Cold, Some(r)) => r.low_k - r.reference_k,
-        (Operating::Hot, Some(r)) => r.high_k - r.reference_k,
-        _ => 0.0,
-    };
+    let delta_t = operating.shown_excursion(&budget).map_err(in_file(file))?;
     let sweep = run_sweep_at(&budget, spec, delta_t).map_err(in_file(file))?;
     let report = build_sweep_report(&budget, &sweep, delta_t, &verdict);
     if let Some(path) = plot {

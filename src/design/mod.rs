@@ -618,6 +618,15 @@ pub struct TrimRow {
     pub after_over_temperature_db: Option<f64>,
 }
 
+/// What a trim does: the total compared, and each source before and after.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TrimEffect {
+    /// The total the figures are (the requirement's, worst case by default).
+    pub judged_on: crate::model::Judgement,
+    /// Per interference source.
+    pub rows: Vec<TrimRow>,
+}
+
 /// The effect of trimming the difference stage of `stage` to
 /// `resolution`, per interference source, judged as the verdict judges.
 pub fn trim_effect(
@@ -625,7 +634,7 @@ pub fn trim_effect(
     stage: usize,
     resolution: f64,
     method: TrimMethod,
-) -> Result<Vec<TrimRow>, DesignError> {
+) -> Result<TrimEffect, DesignError> {
     let trimmed_budget = match method {
         TrimMethod::Null => null_trimmed(budget, stage, resolution),
         TrimMethod::Ratio => trimmed(budget, stage, resolution),
@@ -638,7 +647,7 @@ pub fn trim_effect(
     })?;
     let before = judge_budget(budget)?;
     let after = judge_budget(&trimmed_budget)?;
-    Ok(before
+    let rows = before
         .results
         .iter()
         .zip(&after.results)
@@ -652,7 +661,9 @@ pub fn trim_effect(
                 .as_ref()
                 .map(|t| t.cmrr_db.judged(a.judged.on).0),
         })
-        .collect())
+        .collect();
+    let judged_on = crate::verdict::judged_on(budget.requirement.as_ref());
+    Ok(TrimEffect { judged_on, rows })
 }
 
 /// Whether a stage kind has a difference stage a trim can act on.

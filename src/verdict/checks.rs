@@ -48,7 +48,7 @@ pub(super) fn outcome(
 /// The total a requirement is judged on: as the requirement says, or the
 /// worst case when a source sets its own limit and there is no requirement
 /// section.
-pub(crate) fn judged_on(requirement: Option<&Requirement>) -> Judgement {
+pub fn judged_on(requirement: Option<&Requirement>) -> Judgement {
     requirement.map_or(Judgement::WorstCase, |r| r.judged_on)
 }
 

@@ -45,6 +45,13 @@ pub enum Operating {
 }
 
 impl Operating {
+    /// The temperature excursion (K from the reference) the figures are
+    /// shown at: zero for the reference and over the range, an end's for
+    /// an end.
+    pub fn shown_excursion(self, budget: &Budget) -> Result<f64, VerdictError> {
+        Ok(self.excursions(budget)?.0)
+    }
+
     /// The temperature excursion the figures are shown at, and the ends
     /// (excursion, kelvin) judged beside it.
     fn excursions(self, budget: &Budget) -> Result<(f64, Vec<(f64, f64)>), VerdictError> {
@@ -200,16 +207,12 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
 /// The verdict over every judged point; a headroom finding means the
 /// figures do not hold, whatever the margins say.
 fn verdict(report: &Report) -> Verdict {
-    let tightest = report
-        .judged_points()
+    let points = report.judged_points();
+    let all_met = points.iter().filter_map(|p| p.requirement).all(|o| o.met);
+    let tightest = points
         .into_iter()
-        .filter_map(|p| p.requirement.map(|o| (p.at, o.margin_db, o.met)))
+        .filter_map(|p| p.requirement.map(|o| (p.at, o.margin_db)))
         .min_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
-    let all_met = report
-        .judged_points()
-        .iter()
-        .filter_map(|p| p.requirement)
-        .all(|o| o.met);
     let holds = report.headroom.is_empty();
     let status = match (&tightest, holds) {
         (_, false) => Status::DoesNotHold,
@@ -382,12 +385,13 @@ fn lsb_volts(budget: &Budget) -> Option<f64> {
     }
 }
 
+/// The judged figure of a point whose judged conversion (and where it is
+/// worst) is `(temperature_k, conversion)`, from [`Analyses::judged`].
 fn judged_figure(
-    analyses: &Analyses,
     judgement: Judgement,
+    (temperature_k, conversion): (Option<f64>, f64),
     amplitude: Option<&Amplitude>,
 ) -> JudgedFigure {
-    let (temperature_k, conversion) = analyses.judged(judgement);
     JudgedFigure {
         on: judgement,
         temperature_k,
@@ -411,7 +415,8 @@ fn source_result(
         .and_then(|r| r.full_scale_volts)
         .map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
     let judgement = judged_on(requirement);
-    let judged = judged_figure(analyses, judgement, Some(&source.amplitude));
+    let worst = analyses.judged(judgement);
+    let judged = judged_figure(judgement, worst, Some(&source.amplitude));
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
         .unwrap_or_default();
@@ -420,7 +425,7 @@ fn source_result(
             &source.name,
             &limit,
             &source.amplitude,
-            analyses.judged(judgement).1,
+            worst.1,
         ));
     }
     SourceResult {
@@ -454,7 +459,8 @@ fn frequency_result(
     let analysis = &analyses.shown;
     let freq_hz = analysis.analysis.freq_hz;
     let cmrr_db = conversion_totals(analysis).map(Db::from_conversion);
-    let judged = judged_figure(analyses, judged_on(requirement), None);
+    let judgement = judged_on(requirement);
+    let judged = judged_figure(judgement, analyses.judged(judgement), None);
     let checks = requirement
         .map(|r| cmrr_checks(r, freq_hz, judged.cmrr_db))
         .unwrap_or_default();

@@ -15,6 +15,7 @@ mod facts;
 mod judge;
 
 pub use cautions::cautions;
+pub use checks::judged_on;
 pub(crate) use checks::same_frequency;
 pub use judge::{judge, judge_with, Operating, VerdictError};
 
