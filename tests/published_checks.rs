@@ -5,7 +5,7 @@ use approx::assert_relative_eq;
 use cmrr_budget::budget::parse_budget;
 use cmrr_budget::engine::{analyse_point, chain_response, PointAnalysis};
 use cmrr_budget::model::Budget;
-use cmrr_budget::stage::{Point, StageSolve};
+use cmrr_budget::stage::Point;
 use std::f64::consts::PI;
 
 fn budget(chain: &str) -> Budget {

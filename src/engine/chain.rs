@@ -1,8 +1,9 @@
 //! Solving the whole chain at one point.
 
+use super::kernel::step;
 use super::linalg::Mat2;
 use super::mixed_mode::MixedMode;
-use crate::stage::{Point, SingularStage, Stage, StageSolve};
+use crate::stage::{Admittance, Frequency, Point, SingularStage, Stage};
 
 /// The longest chain the engine solves (a fixed bound keeps the per-point
 /// solve free of heap allocation).
@@ -65,22 +66,39 @@ pub fn stage_loads(chain: &[Stage], point: &Point) -> Result<[Mat2; MAX_STAGES],
 ///
 /// Each stage is solved with the input admittance of the stage after it as
 /// its load, so the source network and the first amplifier are solved
-/// together; stages are then multiplied in node-voltage form, which keeps a
+/// together; stages are multiplied in node-voltage form, which keeps a
 /// single-ended output (output, ground) exact when a differential stage
-/// follows it.
+/// follows it. The same composition, over many frequencies at once, is the
+/// Monte Carlo's ([`super::ChainKernel`]).
 pub fn chain_response(chain: &[Stage], point: &Point) -> Result<MixedMode, EngineError> {
-    let loads = stage_loads(chain, point)?;
-    let mut total = Mat2::IDENTITY;
-    for (stage, load) in chain.iter().zip(&loads) {
-        let transfer = stage
-            .kind
-            .transfer(point, load)
-            .map_err(|cause| EngineError::InStage {
-                label: stage.label.clone(),
-                cause,
-            })?;
-        total = transfer * total;
+    if chain.len() > MAX_STAGES {
+        return Err(EngineError::TooManyStages { count: chain.len() });
     }
+    let w = Frequency::new(point.freq_hz);
+    let mut load = Admittance::open();
+    let mut total = None;
+    for stage in chain.iter().rev() {
+        let values = stage.kind.values(point.values);
+        if !step(&values, &w, &mut load, &mut total) {
+            return Err(EngineError::InStage {
+                label: stage.label.clone(),
+                cause: SingularStage {
+                    stage: stage.kind.solve_name(),
+                    freq_hz: point.freq_hz,
+                },
+            });
+        }
+    }
+    let total = match total {
+        Some(transfer) => {
+            transfer
+                .matrix("chain", point.freq_hz)
+                .map_err(|_| EngineError::NotFinite {
+                    freq_hz: point.freq_hz,
+                })?
+        }
+        None => Mat2::IDENTITY,
+    };
     let response = MixedMode::from_nodes(&total);
     let gain = response.dd.norm();
     if gain.is_nan() || !response.dc.norm().is_finite() {

@@ -32,6 +32,17 @@ use crate::stage::Point;
 /// a perfectly matched chain reports an infinite CMRR.
 pub const RESOLUTION_FLOOR: f64 = 1e-12;
 
+/// A value rounded to 9 significant digits, for ranking: two contributions
+/// that differ only by rounding (a matched p and n leg, say) then tie, and
+/// keep their budget order, whatever order of operations computed them.
+pub fn ranking_key(value: f64) -> f64 {
+    if value == 0.0 || !value.is_finite() {
+        return value;
+    }
+    let scale = 10f64.powi(8 - value.abs().log10().floor() as i32);
+    (value * scale).round() / scale
+}
+
 /// A magnitude, zero below the resolution floor.
 pub fn resolved(magnitude: f64) -> f64 {
     if magnitude < RESOLUTION_FLOOR {

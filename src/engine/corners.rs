@@ -10,7 +10,7 @@
 //! `cmrr budget` and `cmrr yield` both take their worst corner from here.
 
 use super::chain::{chain_response, EngineError};
-use super::contributions::{resolved, PointAnalysis};
+use super::contributions::{ranking_key, resolved, PointAnalysis};
 use super::linalg::C64;
 use super::settle::settle;
 use crate::model::{Budget, ParamId};
@@ -99,10 +99,8 @@ pub fn worst_corner(
         // Start 2: signs aligned with the running sum, largest first.
         let mut order: Vec<usize> = (0..n).collect();
         order.sort_by(|&a, &b| {
-            contributions[b]
-                .deviation
-                .norm()
-                .total_cmp(&contributions[a].deviation.norm())
+            ranking_key(contributions[b].deviation.norm())
+                .total_cmp(&ranking_key(contributions[a].deviation.norm()))
         });
         let mut aligned = vec![0usize; n];
         let mut running = nominal;

@@ -14,7 +14,7 @@
 use super::chain::{stage_loads, EngineError};
 use super::linalg::{Mat2, C64};
 use crate::model::Budget;
-use crate::stage::{Point, StageSolve};
+use crate::stage::Point;
 
 /// A node that leaves its allowed range.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]

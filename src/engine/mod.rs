@@ -6,15 +6,19 @@ mod chain;
 mod contributions;
 mod corners;
 mod headroom;
+mod kernel;
+pub mod lane;
 pub mod linalg;
 mod mixed_mode;
 mod settle;
 
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
-    analyse_point, analyse_point_at, resolved, Contribution, PointAnalysis, RESOLUTION_FLOOR,
+    analyse_point, analyse_point_at, ranking_key, resolved, Contribution, PointAnalysis,
+    RESOLUTION_FLOOR,
 };
 pub use corners::{worst_corner, CornerSearch, EXHAUSTIVE_LIMIT};
 pub use headroom::{check_headroom, HeadroomFinding};
+pub use kernel::ChainKernel;
 pub use mixed_mode::MixedMode;
 pub use settle::settle;

@@ -4,14 +4,11 @@
 mod rng;
 
 pub use rng::SplitMix64;
-mod fast;
-mod lanes;
 pub mod production;
 mod run;
 mod sampler;
 mod stats;
 
-pub use fast::{FastChain, Prepared};
 pub use run::{
     run_yield, TemperatureMode, TrialCheck, YieldError, YieldOptions, YieldRun, MAX_TRIALS,
 };

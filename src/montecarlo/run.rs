@@ -3,10 +3,10 @@
 //! exactly, and statistics that merge the same way whatever the threads did.
 
 use super::stats::{squared_of_cmrr_db, SMALLEST_SQUARED};
-use super::{CmrrHistogram, FastChain, Prepared, Sampler, SplitMix64};
-use crate::engine::{chain_response, settle, EngineError};
+use super::{CmrrHistogram, Sampler, SplitMix64};
+use crate::engine::{chain_response, settle, ChainKernel, EngineError};
 use crate::model::Budget;
-use crate::stage::Point;
+use crate::stage::{Point, StageValues};
 use rayon::prelude::*;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::Mutex;
@@ -207,7 +207,7 @@ impl Tally {
 struct TrialSolver<'a> {
     budget: &'a Budget,
     sampler: Sampler,
-    fast: Option<FastChain>,
+    kernel: ChainKernel,
     frequencies: &'a [f64],
     options: YieldOptions,
 }
@@ -215,14 +215,14 @@ struct TrialSolver<'a> {
 /// One thread's scratch space for solving trials.
 struct Workspace {
     values: Vec<f64>,
-    prepared: Prepared,
+    stages: Vec<StageValues>,
 }
 
 impl Workspace {
     fn new(budget: &Budget) -> Workspace {
         Workspace {
             values: budget.parameters.nominal_values(),
-            prepared: Prepared::default(),
+            stages: Vec::with_capacity(budget.chain.len()),
         }
     }
 }
@@ -248,16 +248,17 @@ impl TrialSolver<'_> {
             _ => 0.0,
         };
         settle(self.budget, values, delta_t)?;
-        match &self.fast {
-            Some(fast) => {
-                fast.prepare(values, &mut workspace.prepared);
-                fast.conversions_squared(&workspace.prepared, self.frequencies, squared);
-            }
-            None => {
-                for (slot, &freq) in squared.iter_mut().zip(self.frequencies) {
-                    let response = chain_response(&self.budget.chain, &Point::new(freq, values))?;
-                    *slot = response.conversion().norm_sqr();
-                }
+        self.kernel
+            .prepare(&self.budget.chain, values, &mut workspace.stages);
+        self.kernel
+            .conversions_squared(&workspace.stages, self.frequencies, squared);
+        // Where the kernel has no finite answer, the single-point solve of
+        // the same equations says why (or, out of the kernel's range,
+        // answers).
+        for (slot, &freq) in squared.iter_mut().zip(self.frequencies) {
+            if !slot.is_finite() {
+                let response = chain_response(&self.budget.chain, &Point::new(freq, values))?;
+                *slot = response.conversion().norm_sqr();
             }
         }
         Ok(())
@@ -286,10 +287,7 @@ pub fn run_yield(
     let solver = TrialSolver {
         budget,
         sampler: Sampler::new(budget),
-        // The closed-form evaluator where the chain has one; the general
-        // engine otherwise. Both solve the same equations (tested against
-        // each other).
-        fast: FastChain::new(budget),
+        kernel: ChainKernel::new(),
         frequencies,
         options,
     };

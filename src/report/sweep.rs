@@ -3,6 +3,7 @@
 //! dominant contributor changes; rendered as a table, CSV, JSON or a plot.
 
 use super::{Db, Render, Report, Totals, SCHEMA_VERSION};
+use crate::engine::ranking_key;
 use crate::model::Budget;
 use crate::plot::{plot_sweep, text_chart, PlotError, MAX_CONTRIBUTOR_CURVES};
 use crate::quantity::{format_db, format_si};
@@ -346,7 +347,7 @@ pub fn render_sweep_svg(report: &SweepReport) -> Result<String, PlotError> {
         })
         .filter(|(_, best)| best.is_finite())
         .collect();
-    ranked.sort_by(|a, b| a.1.total_cmp(&b.1));
+    ranked.sort_by(|a, b| ranking_key(a.1).total_cmp(&ranking_key(b.1)));
     let same_curve = |a: usize, b: usize| {
         report.points.iter().all(|r| {
             let (x, y) = (r.contributors_cmrr_db[a].0, r.contributors_cmrr_db[b].0);

@@ -8,8 +8,10 @@
 //! error in codes. Its own conversion is referred to the sensor through the
 //! gain ahead of it, like any later stage's.
 
-use super::{PinShunt, Point, SingularStage, StageSolve};
-use crate::engine::linalg::{Mat2, C64, ONE, ZERO};
+use super::{
+    Admittance, Frequency, Lane, PinShunt, PinValues, Rows, SmallSignal, Solved, StageSolve,
+    Transfer,
+};
 use crate::model::ParamId;
 
 /// A differential-input converter.
@@ -35,18 +37,39 @@ impl Adc {
 }
 
 impl StageSolve for Adc {
-    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
-        PinShunt::pair_admittance(&self.pins, point)
-    }
+    type Values = AdcValues;
+    const NAME: &'static str = "converter";
 
-    fn transfer(&self, point: &Point, _load: &Mat2) -> Result<Mat2, SingularStage> {
-        let c = self.cmrr_reciprocal.map_or(ZERO, |id| {
-            let corner = self
-                .cmrr_corner_hz
-                .map_or(ZERO, |fc| C64::new(0.0, point.freq_hz / point.value(fc)));
-            C64::new(point.value(id), 0.0) * (ONE + corner)
-        });
-        Ok(Mat2::new(ONE + c / 2.0, -(ONE - c / 2.0), ZERO, ZERO))
+    fn values(&self, v: &[f64]) -> AdcValues {
+        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
+        AdcValues {
+            c0,
+            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+            pins: PinShunt::values(&self.pins, v),
+        }
+    }
+}
+
+/// A converter's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AdcValues {
+    c0: f64,
+    c0_per_corner: f64,
+    pins: [PinValues; 2],
+}
+
+impl SmallSignal for AdcValues {
+    /// `(1 + c/2) v_p − (1 − c/2) v_n`, `c = c0 + j f c0/fc`.
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
+        let half_c = N::with_imaginary(self.c0, w.hz * self.c0_per_corner) * 0.5;
+        Solved {
+            input: PinValues::admittance(&self.pins, w),
+            transfer: Transfer {
+                rows: Rows::Single([N::one() + half_c, -(N::one() - half_c)]),
+                den: None,
+            },
+        }
     }
 }
 

@@ -22,7 +22,11 @@
 //! Input admittance: the p pin sees R3 + R4' to ground; the n pin draws
 //! `(v_n − v_o)/(R1 + R2)`, which depends on both inputs through `v_o`.
 
-use super::{OpAmp, Point, Probe, SingularStage, StageSolve};
+use super::opamp::OpAmpValues;
+use super::{
+    Admittance, Frequency, Lane, OpAmp, Point, Probe, Rows, SmallSignal, Solved, StageSolve,
+    Transfer,
+};
 use crate::engine::linalg::{Mat2, C64, ZERO};
 use crate::model::ParamId;
 
@@ -54,21 +58,88 @@ impl DifferenceAmp {
         point.value(self.r4) + point.value_or(self.reference_resistance, 0.0)
     }
 
+    /// Its frequency-independent values for one set of parameter values.
+    pub fn values(&self, v: &[f64]) -> DifferenceValues {
+        let (r1, r2, r3) = (v[self.r1.0], v[self.r2.0], v[self.r3.0]);
+        let r4 = v[self.r4.0] + self.reference_resistance.map_or(0.0, |id| v[id.0]);
+        DifferenceValues {
+            k3: r4 / (r3 + r4),
+            alpha: r2 / (r1 + r2),
+            beta: r1 / (r1 + r2),
+            feedback: 1.0 / (r1 + r2),
+            p_conductance: 1.0 / (r3 + r4),
+            opamp: self.opamp.values(v),
+        }
+    }
+
     /// The output voltage per volt at the p and n pins: `(m_p, m_n)`.
     pub(crate) fn output_gains(&self, point: &Point) -> (C64, C64) {
-        let r1 = point.value(self.r1);
-        let r2 = point.value(self.r2);
-        let r3 = point.value(self.r3);
-        let r4 = self.r4_to_reference(point);
-        let k3 = r4 / (r3 + r4);
-        let alpha = r2 / (r1 + r2);
-        let beta = r1 / (r1 + r2);
-        let c = self.opamp.inverse_cmrr(point);
-        let a_inv = self.opamp.inverse_gain(point);
-        let plus = C64::new(1.0, 0.0) + c / 2.0;
-        let minus = C64::new(1.0, 0.0) - c / 2.0;
-        let denominator = a_inv + minus * beta;
-        (plus * k3 / denominator, -(minus * alpha) / denominator)
+        let gains: ScaledGains<C64> = self
+            .values(point.values)
+            .gains(&Frequency::new(point.freq_hz));
+        (gains.p / gains.scale, gains.n / gains.scale)
+    }
+}
+
+/// A difference stage's frequency-independent values.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct DifferenceValues {
+    k3: f64,
+    alpha: f64,
+    beta: f64,
+    feedback: f64,
+    p_conductance: f64,
+    opamp: OpAmpValues,
+}
+
+/// The output per volt at each pin over a common denominator:
+/// `m_p = p/scale`, `m_n = n/scale`.
+#[derive(Debug, Clone, Copy)]
+pub struct ScaledGains<N> {
+    /// The p pin's numerator.
+    pub p: N,
+    /// The n pin's numerator.
+    pub n: N,
+    /// The denominator.
+    pub scale: N,
+}
+
+impl DifferenceValues {
+    /// `m_p = (1 + c/2) k3 / (1/A + (1 − c/2) β)` and
+    /// `m_n = −(1 − c/2) α / (1/A + (1 − c/2) β)`, kept as numerators over
+    /// their common denominator.
+    #[inline(always)]
+    pub fn gains<N: Lane>(&self, w: &Frequency<N>) -> ScaledGains<N> {
+        let (a_inv, c) = self.opamp.at(w);
+        let half_c = c * 0.5;
+        let minus = N::one() - half_c;
+        ScaledGains {
+            p: (N::one() + half_c) * self.k3,
+            n: -(minus * self.alpha),
+            scale: a_inv + minus * self.beta,
+        }
+    }
+}
+
+impl SmallSignal for DifferenceValues {
+    /// The output is an ideal source, so the load does not matter. The p
+    /// pin sees R3 + R4' to ground; the n pin draws `(v_n − v_o)/(R1 + R2)`,
+    /// which times the gains' denominator s is
+    /// `(−p v_p + (s − n) v_n)/(R1 + R2)`.
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
+        let g = self.gains(w);
+        Solved {
+            input: Admittance {
+                own: [N::real(self.p_conductance), (g.scale - g.n) * self.feedback],
+                across: [None, Some(-(g.p * self.feedback))],
+                den: [None, Some(g.scale)],
+            },
+            transfer: Transfer {
+                rows: Rows::Single([g.p, g.n]),
+                den: Some(g.scale),
+            },
+        }
     }
 }
 
@@ -113,32 +184,11 @@ impl DifferenceAmp {
 }
 
 impl StageSolve for DifferenceAmp {
-    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
-        let r1 = point.value(self.r1);
-        let r2 = point.value(self.r2);
-        let r3 = point.value(self.r3);
-        let r4 = self.r4_to_reference(point);
-        let (m_p, m_n) = self.output_gains(point);
-        let feedback = 1.0 / (r1 + r2);
-        Mat2::new(
-            C64::new(1.0 / (r3 + r4), 0.0),
-            ZERO,
-            -m_p * feedback,
-            (C64::new(1.0, 0.0) - m_n) * feedback,
-        )
-    }
+    type Values = DifferenceValues;
+    const NAME: &'static str = "difference amplifier";
 
-    fn transfer(&self, point: &Point, _load: &Mat2) -> Result<Mat2, SingularStage> {
-        let (m_p, m_n) = self.output_gains(point);
-        let transfer = Mat2::new(m_p, m_n, ZERO, ZERO);
-        if transfer.is_finite() {
-            Ok(transfer)
-        } else {
-            Err(SingularStage {
-                stage: "difference amplifier",
-                freq_hz: point.freq_hz,
-            })
-        }
+    fn values(&self, values: &[f64]) -> DifferenceValues {
+        DifferenceAmp::values(self, values)
     }
 
     fn probes(&self, point: &Point, _load: &Mat2) -> Vec<Probe> {

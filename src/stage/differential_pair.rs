@@ -17,7 +17,10 @@
 //!
 //! Exact nodal solve of the collectors, emitters and tail node with each
 //! device as `i_ce = gm (v_b − v_e) + (v_c − v_e)/r_o` and
-//! `i_b = (v_b − v_e)/r_π`, loaded by the next stage. Output: the two
+//! `i_b = (v_b − v_e)/r_π`, loaded by the next stage: each emitter and then
+//! the tail node substituted out (the coefficients, real and computed once
+//! per set of values, in their cancelled forms), leaving two equations in
+//! the collectors solved by the adjugate. Output: the two
 //! collectors (differential, ordered (c2, c1) so the gain is positive) or
 //! the n-side collector against ground (single-ended).
 //!
@@ -32,8 +35,10 @@
 //! `r_o2 (1 + gm2 (r_o1 ∥ r_π2)) + (r_o1 ∥ r_π2)` (`r_o2 (1 + gm2 r_o1) + r_o1`
 //! for a MOSFET); or a stated output resistance.
 
-use super::{Point, Probe, SingularStage, StageSolve};
-use crate::engine::linalg::{Mat2, NodalSystem, Node, C64, ZERO};
+use super::{
+    Admittance, Frequency, Lane, Point, Probe, Rows, SmallSignal, Solved, StageSolve, Transfer,
+};
+use crate::engine::linalg::{Mat2, C64, ZERO};
 use crate::model::ParamId;
 
 /// Boltzmann's constant over the elementary charge, V/K (CODATA 2018 exact
@@ -156,16 +161,6 @@ pub struct PairHeadroom {
     /// The least collector-emitter (drain-source) voltage that keeps a
     /// device out of saturation (triode).
     pub saturation: f64,
-}
-
-/// What drives the pair's nodal system.
-#[derive(Debug, Clone, Copy)]
-enum Drive {
-    /// A unit voltage at each input in turn (the two right-hand sides).
-    Inputs,
-    /// The inputs at rest and the load drawing current at these output
-    /// levels, in volts (one right-hand side).
-    LoadAtLevels([f64; 2]),
 }
 
 /// The pair's DC node voltages, in volts.
@@ -314,97 +309,30 @@ impl DifferentialPair {
         }
     }
 
-    /// The tail's admittance at `point`.
-    pub fn tail_admittance(&self, point: &Point) -> C64 {
-        C64::new(1.0 / self.tail_resistance(point), 0.0)
-            + point.s * point.value_or(self.tail.capacitance, 0.0)
-    }
-
-    /// Solve the pair: node voltages per unit of each input.
-    fn solve(&self, point: &Point, load: &Mat2) -> Result<PairNodes, SingularStage> {
-        self.solve_driven(point, load, Drive::Inputs)
-    }
-
-    /// Solve the pair's nodal system driven as `drive` says; with
-    /// [`Drive::LoadAtLevels`] the answer is in the first column.
-    fn solve_driven(
-        &self,
-        point: &Point,
-        load: &Mat2,
-        drive: Drive,
-    ) -> Result<PairNodes, SingularStage> {
-        let small = self.small_signal(point);
-        let collectors = [Node::At(0), Node::At(1)];
-        let tail = Node::At(2);
-        let mut next = 3;
-        let mut emitters = [tail; 2];
-        for (side, emitter) in emitters.iter_mut().enumerate() {
-            if self.degeneration[side].is_some() {
-                *emitter = Node::At(next);
-                next += 1;
-            }
-        }
-        let driven_by_inputs = matches!(drive, Drive::Inputs);
-        let mut system = NodalSystem::new(next);
-        for side in 0..2 {
-            let (c, e) = (collectors[side], emitters[side]);
-            let gm = C64::new(small.gm[side], 0.0);
-            let g_o = C64::new(small.g_o[side], 0.0);
-            let g_pi = C64::new(small.g_pi[side], 0.0);
-            // Load resistor to AC ground.
-            system.admittance(
-                c,
-                Node::Ground,
-                C64::new(1.0 / point.value(self.load[side]), 0.0),
-            );
-            // Output resistance between collector and emitter.
-            system.admittance(c, e, g_o);
-            // Controlled current gm (v_b − v_e) from collector to emitter.
-            system.coupling(c, e, -gm);
-            system.coupling(e, e, gm);
-            if driven_by_inputs {
-                system.input_term(c, side, -gm);
-                system.input_term(e, side, gm);
-                // Base current (v_b − v_e)/r_π into the emitter node.
-                system.admittance_to_input(e, side, g_pi);
-            } else {
-                // The base held at its DC level: r_π to AC ground.
-                system.admittance(e, Node::Ground, g_pi);
-            }
-            if let Some(re) = self.degeneration[side] {
-                system.admittance(e, tail, C64::new(1.0 / point.value(re), 0.0));
-            }
-        }
-        system.admittance(tail, Node::Ground, self.tail_admittance(point));
-        let (out_p, out_n) = self.output_nodes(collectors);
-        system.admittance_matrix(out_p, out_n, load);
-        if let Drive::LoadAtLevels(levels) = drive {
-            // The load draws load · (levels + v); the part at the levels is
-            // a current taken from the output nodes.
-            let drawn = load.apply([C64::new(levels[0], 0.0), C64::new(levels[1], 0.0)]);
-            system.input_term(out_p, 0, -drawn[0]);
-            system.input_term(out_n, 0, -drawn[1]);
-        }
-        let solution = system.solve().ok_or(SingularStage {
-            stage: "differential pair",
-            freq_hz: point.freq_hz,
-        })?;
-        let at = |node: Node| match node {
-            Node::At(i) => solution[i],
-            Node::Ground => [ZERO; 2],
+    /// The pair's node voltages per unit of each input, driving `load`.
+    fn nodes(&self, point: &Point, load: &Mat2) -> Option<PairNodes> {
+        let values = self.values(point.values);
+        let w = Frequency::new(point.freq_hz);
+        let system = values.system(&w, &Admittance::from_matrix(load));
+        let collectors = system.collectors();
+        let emitters = values.emitters(&system, &collectors);
+        let (over_det, over_tail_det) = (system.det.inv(), (system.tail * system.det).inv());
+        let nodes = PairNodes {
+            collectors: collectors.map(|row| row.map(|z| z * over_det)),
+            emitters: emitters.map(|row| row.map(|z| z * over_tail_det)),
         };
-        Ok(PairNodes {
-            collectors: [at(collectors[0]), at(collectors[1])],
-            emitters: [at(emitters[0]), at(emitters[1])],
-        })
+        let finite = nodes
+            .collectors
+            .iter()
+            .chain(&nodes.emitters)
+            .flatten()
+            .all(|z| z.re.is_finite() && z.im.is_finite());
+        finite.then_some(nodes)
     }
 
-    /// The DC voltages of the collectors and emitters with the inputs at
-    /// 0 V and the outputs driving `load`, when the supply is stated:
-    /// unloaded, the collectors sit at the supply less I_C R_C and the
-    /// emitters one input drop below the bases; the load's pull at those
-    /// levels then moves every node as the small-signal circuit says.
-    /// Meaningful at DC (`point` at 0 Hz, `load` its DC admittance).
+    /// The DC node levels with the bases at rest, the collectors at the
+    /// supply less their load resistors' drop, and what the next stage
+    /// draws at those levels taken from the outputs.
     fn dc_levels(&self, point: &Point, load: &Mat2) -> Option<DcLevels> {
         let headroom = self.headroom?;
         let currents = self.small_signal(point).bias_current?;
@@ -414,53 +342,295 @@ impl DifferentialPair {
             PairOutput::Differential => [unloaded[1], unloaded[0]],
             PairOutput::SingleEnded => [unloaded[1], 0.0],
         };
-        let shift = self
-            .solve_driven(point, load, Drive::LoadAtLevels(at_outputs))
-            .ok()?;
-        Some(DcLevels {
-            collectors: [0, 1].map(|side| unloaded[side] + shift.collectors[side][0].re),
-            emitters: [0, 1].map(|side| -headroom.input_drop + shift.emitters[side][0].re),
+        // The load draws load · (levels + v); the part at the levels is a
+        // current taken from the output nodes.
+        let drawn = load.apply([C64::new(at_outputs[0], 0.0), C64::new(at_outputs[1], 0.0)]);
+        let values = self.values(point.values);
+        let w = Frequency::new(0.0);
+        let system = values.system(&w, &Admittance::from_matrix(load));
+        let at_collector = values
+            .output_rows()
+            .map(|row| row.map_or(ZERO, |r| drawn[r]));
+        let shift = system.collectors_for(at_collector.map(|i| i * system.tail));
+        let tail = values.tail_from(&system, &shift, [ZERO; 2]) / (system.tail * system.det);
+        let collectors = shift.map(|c| c / system.det);
+        let emitters = [0, 1].map(|side| {
+            let side_values = &values.sides[side];
+            (collectors[side] * side_values.emitter_from_collector
+                + tail * side_values.emitter_from_tail)
+                .re
+        });
+        let finite =
+            collectors.iter().all(|z| z.re.is_finite()) && emitters.iter().all(|e| e.is_finite());
+        finite.then_some(DcLevels {
+            collectors: [0, 1].map(|side| unloaded[side] + collectors[side].re),
+            emitters: [0, 1].map(|side| -headroom.input_drop + emitters[side]),
+        })
+    }
+}
+
+/// One device's frequency-independent coefficients, its emitter (when
+/// degenerated) substituted out: with D = gm + g_o + g_π + g_RE,
+///
+/// - collector current: `α_c v_c + α_t v_t + α_b v_b` plus what the load
+///   draws, zero; undegenerated `α = (g_L + g_o, −(gm + g_o), gm)`,
+///   degenerated `(g_L + g_o (g_π + g_RE)/D, −(gm + g_o) g_RE/D,
+///   (gm g_RE − g_o g_π)/D)`;
+/// - its share of the tail node's current: `τ_t v_t + τ_c v_c + τ_b v_b`;
+///   undegenerated `(gm + g_o + g_π, −g_o, −(gm + g_π))`, degenerated
+///   `g_RE (gm + g_o + g_π)/D, −g_RE g_o/D, −g_RE (gm + g_π)/D`;
+/// - its emitter: `ε_c v_c + ε_t v_t + ε_b v_b`; undegenerated the tail
+///   node, degenerated `(g_o, g_RE, gm + g_π)/D`.
+///
+/// Each difference of products is written in its cancelled form, so no
+/// digits are lost to it.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+struct SideValues {
+    collector_own: f64,
+    collector_from_tail: f64,
+    collector_from_base: f64,
+    tail_own: f64,
+    tail_from_collector: f64,
+    tail_from_base: f64,
+    emitter_from_collector: f64,
+    emitter_from_tail: f64,
+    emitter_from_base: f64,
+    g_pi: f64,
+}
+
+impl SideValues {
+    fn of(gm: f64, g_pi: f64, g_o: f64, g_load: f64, g_re: Option<f64>) -> SideValues {
+        match g_re {
+            None => SideValues {
+                collector_own: g_load + g_o,
+                collector_from_tail: -(gm + g_o),
+                collector_from_base: gm,
+                tail_own: gm + g_o + g_pi,
+                tail_from_collector: -g_o,
+                tail_from_base: -(gm + g_pi),
+                emitter_from_collector: 0.0,
+                emitter_from_tail: 1.0,
+                emitter_from_base: 0.0,
+                g_pi,
+            },
+            Some(g_re) => {
+                let d = gm + g_o + g_pi + g_re;
+                SideValues {
+                    collector_own: g_load + g_o * (g_pi + g_re) / d,
+                    collector_from_tail: -(gm + g_o) * g_re / d,
+                    collector_from_base: (gm * g_re - g_o * g_pi) / d,
+                    tail_own: g_re * (gm + g_o + g_pi) / d,
+                    tail_from_collector: -g_re * g_o / d,
+                    tail_from_base: -g_re * (gm + g_pi) / d,
+                    emitter_from_collector: g_o / d,
+                    emitter_from_tail: g_re / d,
+                    emitter_from_base: (gm + g_pi) / d,
+                    g_pi,
+                }
+            }
+        }
+    }
+}
+
+/// A differential pair's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PairValues {
+    sides: [SideValues; 2],
+    /// `1/R_out` of the tail plus both devices' `τ_t`.
+    tail_conductance: f64,
+    tail_capacitance: f64,
+    output: PairOutput,
+    /// Whether either device draws base current.
+    base_current: bool,
+}
+
+/// The pair's collector equations, the tail substituted out and every row
+/// multiplied through by the tail node's total admittance T (and by its
+/// load row's denominator): `K c + B b = 0`.
+struct PairSystem<N> {
+    k: [[N; 2]; 2],
+    b: [[N; 2]; 2],
+    det: N,
+    tail: N,
+}
+
+impl<N: Lane> PairSystem<N> {
+    /// The collectors per unit base voltage, times det K: `−adj(K) B`.
+    #[inline(always)]
+    fn collectors(&self) -> [[N; 2]; 2] {
+        let k = &self.k;
+        let adjugate = [[k[1][1], -k[0][1]], [-k[1][0], k[0][0]]];
+        [0, 1].map(|i| {
+            [0, 1].map(|col| -(adjugate[i][0] * self.b[0][col] + adjugate[i][1] * self.b[1][col]))
         })
     }
 
-    fn output_nodes(&self, collectors: [Node; 2]) -> (Node, Node) {
+    /// The collectors, times det K, for currents `injected` leaving them
+    /// (times T), the bases at rest: `−adj(K) injected`.
+    fn collectors_for(&self, injected: [N; 2]) -> [N; 2] {
+        let k = &self.k;
+        [
+            -(k[1][1] * injected[0] - k[0][1] * injected[1]),
+            -(k[0][0] * injected[1] - k[1][0] * injected[0]),
+        ]
+    }
+}
+
+impl PairValues {
+    /// For each collector (c1, c2), the row of the load's admittance that
+    /// draws from it: the outputs are (c2, c1) differential, (c2, ground)
+    /// single-ended.
+    #[inline(always)]
+    fn output_rows(&self) -> [Option<usize>; 2] {
         match self.output {
-            PairOutput::Differential => (collectors[1], collectors[0]),
-            PairOutput::SingleEnded => (collectors[1], Node::Ground),
+            PairOutput::Differential => [Some(1), Some(0)],
+            PairOutput::SingleEnded => [None, Some(0)],
+        }
+    }
+
+    /// The collector equations at `w`, driving `load`.
+    #[inline(always)]
+    fn system<N: Lane>(&self, w: &Frequency<N>, load: &Admittance<N>) -> PairSystem<N> {
+        let tail = N::with_imaginary(self.tail_conductance, w.omega * self.tail_capacitance);
+        let rows = self.output_rows();
+        let mut k = [[N::zero(); 2]; 2];
+        let mut b = [[N::zero(); 2]; 2];
+        for i in 0..2 {
+            let j = 1 - i;
+            let (side, other) = (&self.sides[i], &self.sides[j]);
+            // α_c c_i + α_t t + α_b b_i with t = −(Σ τ_c c + Σ τ_b b)/T,
+            // times T.
+            let own = tail * side.collector_own
+                - N::real(side.collector_from_tail * side.tail_from_collector);
+            let across = N::real(-(side.collector_from_tail * other.tail_from_collector));
+            let base_own = tail * side.collector_from_base
+                - N::real(side.collector_from_tail * side.tail_from_base);
+            let base_across = N::real(-(side.collector_from_tail * other.tail_from_base));
+            let (load_own, load_across, den) = match rows[i] {
+                Some(r) => {
+                    let (own, across, den) = load.row(r);
+                    // Single-ended, the row's other node is ground.
+                    let across = across.filter(|_| self.output == PairOutput::Differential);
+                    (Some(own), across, den)
+                }
+                None => (None, None, None),
+            };
+            let scaled = |value: N| match den {
+                Some(d) => value * d,
+                None => value,
+            };
+            k[i][i] = scaled(own);
+            k[i][j] = scaled(across);
+            if let Some(load_own) = load_own {
+                k[i][i] = k[i][i] + tail * load_own;
+            }
+            if let Some(load_across) = load_across {
+                k[i][j] = k[i][j] + tail * load_across;
+            }
+            b[i][i] = scaled(base_own);
+            b[i][j] = scaled(base_across);
+        }
+        let det = k[0][0] * k[1][1] - k[0][1] * k[1][0];
+        PairSystem { k, b, det, tail }
+    }
+
+    /// The tail node, times T det K, from the collectors (times det K)
+    /// and the bases (as given): `−(Σ τ_c c + det K Σ τ_b b)`.
+    #[inline(always)]
+    fn tail_from<N: Lane>(&self, system: &PairSystem<N>, collectors: &[N; 2], bases: [N; 2]) -> N {
+        let [s0, s1] = &self.sides;
+        -(collectors[0] * s0.tail_from_collector
+            + collectors[1] * s1.tail_from_collector
+            + system.det * (bases[0] * s0.tail_from_base + bases[1] * s1.tail_from_base))
+    }
+
+    /// Each emitter per unit base voltage, times T det K.
+    #[inline(always)]
+    fn emitters<N: Lane>(&self, system: &PairSystem<N>, collectors: &[[N; 2]; 2]) -> [[N; 2]; 2] {
+        let tail_det = system.tail * system.det;
+        let tails = [0, 1].map(|col| {
+            let unit = [0, 1].map(|k| if k == col { N::one() } else { N::zero() });
+            self.tail_from(system, &[collectors[0][col], collectors[1][col]], unit)
+        });
+        [0, 1].map(|i| {
+            let side = &self.sides[i];
+            [0, 1].map(|col| {
+                let mut e = collectors[i][col] * system.tail * side.emitter_from_collector
+                    + tails[col] * side.emitter_from_tail;
+                if i == col {
+                    e = e + tail_det * side.emitter_from_base;
+                }
+                e
+            })
+        })
+    }
+}
+
+impl SmallSignal for PairValues {
+    /// The collectors from the 2×2 by its adjugate; the base currents
+    /// `g_π (v_b − v_e)` from the emitters, all over `T det K`.
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, load: &Admittance<N>) -> Solved<N> {
+        let system = self.system(w, load);
+        let c = system.collectors();
+        let rows = match self.output {
+            PairOutput::Differential => Rows::Both([c[1], c[0]]),
+            PairOutput::SingleEnded => Rows::Single(c[1]),
+        };
+        let input = if self.base_current {
+            let e = self.emitters(&system, &c);
+            let tail_det = system.tail * system.det;
+            let [g0, g1] = [self.sides[0].g_pi, self.sides[1].g_pi];
+            Admittance {
+                own: [(tail_det - e[0][0]) * g0, (tail_det - e[1][1]) * g1],
+                across: [Some(-(e[0][1] * g0)), Some(-(e[1][0] * g1))],
+                den: [Some(tail_det), Some(tail_det)],
+            }
+        } else {
+            Admittance::open()
+        };
+        Solved {
+            input,
+            transfer: Transfer {
+                rows,
+                den: Some(system.det),
+            },
         }
     }
 }
 
 impl StageSolve for DifferentialPair {
-    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2 {
-        let small = self.small_signal(point);
-        if small.g_pi == [0.0, 0.0] {
-            return Mat2::ZERO;
+    type Values = PairValues;
+    const NAME: &'static str = "differential pair";
+
+    fn values(&self, v: &[f64]) -> PairValues {
+        let point = Point::new(0.0, v);
+        let small = self.small_signal(&point);
+        let sides = [0, 1].map(|side| {
+            SideValues::of(
+                small.gm[side],
+                small.g_pi[side],
+                small.g_o[side],
+                1.0 / v[self.load[side].0],
+                self.degeneration[side].map(|re| 1.0 / v[re.0]),
+            )
+        });
+        PairValues {
+            sides,
+            tail_conductance: 1.0 / self.tail_resistance(&point)
+                + sides[0].tail_own
+                + sides[1].tail_own,
+            tail_capacitance: self.tail.capacitance.map_or(0.0, |c| v[c.0]),
+            output: self.output,
+            base_current: small.g_pi != [0.0, 0.0],
         }
-        let Ok(PairNodes { emitters, .. }) = self.solve(point, load) else {
-            return Mat2::ZERO;
-        };
-        // i_b = (v_b − v_e)/r_π per side.
-        let row = |side: usize| {
-            let g = small.g_pi[side];
-            let own = [
-                if side == 0 { 1.0 } else { 0.0 },
-                if side == 1 { 1.0 } else { 0.0 },
-            ];
-            [
-                (C64::new(own[0], 0.0) - emitters[side][0]) * g,
-                (C64::new(own[1], 0.0) - emitters[side][1]) * g,
-            ]
-        };
-        let (p, n) = (row(0), row(1));
-        Mat2::new(p[0], p[1], n[0], n[1])
     }
 
     fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
         let (Some(headroom), Some(levels)) = (self.headroom, self.dc_levels(point, load)) else {
             return Vec::new();
         };
-        let Ok(nodes) = self.solve(point, load) else {
+        let Some(nodes) = self.nodes(point, load) else {
             return Vec::new();
         };
         (0..2)
@@ -488,18 +658,5 @@ impl StageSolve for DifferentialPair {
             PairOutput::Differential => [levels.collectors[1], levels.collectors[0]],
             PairOutput::SingleEnded => [levels.collectors[1], 0.0],
         }
-    }
-
-    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
-        let PairNodes { collectors, .. } = self.solve(point, load)?;
-        Ok(match self.output {
-            PairOutput::Differential => Mat2::new(
-                collectors[1][0],
-                collectors[1][1],
-                collectors[0][0],
-                collectors[0][1],
-            ),
-            PairOutput::SingleEnded => Mat2::new(collectors[1][0], collectors[1][1], ZERO, ZERO),
-        })
     }
 }

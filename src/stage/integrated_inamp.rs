@@ -10,8 +10,11 @@
 //! resistance and capacitance to ground, which load the source network.
 //! The output is single-ended against the reference (ground).
 
-use super::{PinShunt, Point, Probe, SingularStage, StageSolve, VoltageRange};
-use crate::engine::linalg::{Mat2, C64, ONE, ZERO};
+use super::{
+    Admittance, Frequency, Lane, PinShunt, PinValues, Point, Probe, Rows, SmallSignal, Solved,
+    StageSolve, Transfer, VoltageRange,
+};
+use crate::engine::linalg::{Mat2, ONE, ZERO};
 use crate::model::ParamId;
 
 /// How the gain is set.
@@ -71,27 +74,18 @@ pub struct IntegratedInAmp {
 }
 
 impl StageSolve for IntegratedInAmp {
-    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
-        PinShunt::pair_admittance(&self.pins, point)
-    }
+    type Values = IntegratedValues;
+    const NAME: &'static str = "integrated instrumentation amplifier";
 
-    fn transfer(&self, point: &Point, _load: &Mat2) -> Result<Mat2, SingularStage> {
-        let roll_off = self.bandwidth_hz.map_or(ONE, |bw| {
-            ONE + C64::new(0.0, point.freq_hz / point.value(bw))
-        });
-        let gain = C64::new(self.gain.gain(point), 0.0) / roll_off;
-        let c = self.cmrr_reciprocal.map_or(ZERO, |id| {
-            let corner = self
-                .cmrr_corner_hz
-                .map_or(ZERO, |fc| C64::new(0.0, point.freq_hz / point.value(fc)));
-            C64::new(point.value(id), 0.0) * (ONE + corner)
-        });
-        Ok(Mat2::new(
-            gain * (ONE + c / 2.0),
-            -gain * (ONE - c / 2.0),
-            ZERO,
-            ZERO,
-        ))
+    fn values(&self, v: &[f64]) -> IntegratedValues {
+        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
+        IntegratedValues {
+            gain: self.gain.gain(&Point::new(0.0, v)),
+            c0,
+            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+            inverse_bandwidth: self.bandwidth_hz.map(|id| 1.0 / v[id.0]),
+            pins: PinShunt::values(&self.pins, v),
+        }
     }
 
     fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
@@ -108,6 +102,37 @@ impl StageSolve for IntegratedInAmp {
 
     fn output_levels(&self, _point: &Point, _load: &Mat2) -> [f64; 2] {
         [self.reference_voltage, 0.0]
+    }
+}
+
+/// An integrated in-amp's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct IntegratedValues {
+    gain: f64,
+    c0: f64,
+    c0_per_corner: f64,
+    inverse_bandwidth: Option<f64>,
+    pins: [PinValues; 2],
+}
+
+impl SmallSignal for IntegratedValues {
+    /// `G [(1 + c/2) v_p − (1 − c/2) v_n] / (1 + j f/f_bw)`, the roll-off
+    /// kept as the denominator.
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
+        let half_c = N::with_imaginary(self.c0, w.hz * self.c0_per_corner) * 0.5;
+        Solved {
+            input: PinValues::admittance(&self.pins, w),
+            transfer: Transfer {
+                rows: Rows::Single([
+                    (N::one() + half_c) * self.gain,
+                    -((N::one() - half_c) * self.gain),
+                ]),
+                den: self
+                    .inverse_bandwidth
+                    .map(|inverse| N::with_imaginary(1.0, w.hz * inverse)),
+            },
+        }
     }
 }
 

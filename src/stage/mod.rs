@@ -9,9 +9,16 @@
 //! reference being ground. The chain module turns products of these into
 //! differential/common-mode (mixed-mode) responses.
 //!
+//! Each stage's physics is written once: [`StageSolve::values`] computes
+//! what does not depend on frequency from one set of parameter values, and
+//! [`SmallSignal::solve`] is the exact per-frequency solve, written over
+//! [`Lane`] so that the same code serves a single analysis point (one
+//! complex value) and the Monte Carlo (several frequencies at once). It is
+//! division-free (see [`two_port`]).
+//!
 //! To add a stage kind: write its module here (parameters as
-//! [`ParamId`](crate::model::ParamId)s, the exact solve in
-//! [`StageSolve`]), add a variant to [`StageKind`], and teach the budget
+//! [`ParamId`](crate::model::ParamId)s, its values and its solve), add a
+//! variant to [`StageKind`] and [`StageValues`], and teach the budget
 //! file's raw schema and validator to build it (see DEVELOPERS.md).
 
 mod adc;
@@ -22,18 +29,21 @@ mod opamp;
 mod pins;
 mod source_network;
 mod three_opamp_inamp;
+pub mod two_port;
 
-pub use adc::Adc;
-pub use difference_amp::DifferenceAmp;
+pub use crate::engine::lane::Lane;
+pub use adc::{Adc, AdcValues};
+pub use difference_amp::{DifferenceAmp, DifferenceValues};
 pub use differential_pair::{
-    DifferentialPair, PairDevice, PairHeadroom, PairOutput, PairSmallSignal, Tail, TailKind,
-    K_OVER_Q,
+    DifferentialPair, PairDevice, PairHeadroom, PairOutput, PairSmallSignal, PairValues, Tail,
+    TailKind, K_OVER_Q,
 };
-pub use integrated_inamp::{GainSetting, IntegratedInAmp};
-pub use opamp::OpAmp;
-pub use pins::PinShunt;
-pub use source_network::{Leg, SourceImpedance, SourceNetwork};
-pub use three_opamp_inamp::ThreeOpAmpInAmp;
+pub use integrated_inamp::{GainSetting, IntegratedInAmp, IntegratedValues};
+pub use opamp::{OpAmp, OpAmpValues};
+pub use pins::{PinShunt, PinValues};
+pub use source_network::{Leg, SourceImpedance, SourceNetwork, SourceValues};
+pub use three_opamp_inamp::{ThreeOpAmpInAmp, ThreeOpAmpValues};
+pub use two_port::{Admittance, Frequency, Rows, SmallSignal, Solved, Transfer};
 
 use crate::engine::linalg::{Mat2, C64};
 
@@ -42,8 +52,6 @@ use crate::engine::linalg::{Mat2, C64};
 pub struct Point<'a> {
     /// Frequency in hertz.
     pub freq_hz: f64,
-    /// The complex frequency `s = j 2π f`.
-    pub s: C64,
     /// Parameter values, indexed by [`ParamId`](crate::model::ParamId).
     pub values: &'a [f64],
 }
@@ -51,11 +59,7 @@ pub struct Point<'a> {
 impl<'a> Point<'a> {
     /// A point at `freq_hz` with the given parameter values.
     pub fn new(freq_hz: f64, values: &'a [f64]) -> Point<'a> {
-        Point {
-            freq_hz,
-            s: C64::new(0.0, 2.0 * std::f64::consts::PI * freq_hz),
-            values,
-        }
+        Point { freq_hz, values }
     }
 
     /// The value of a parameter.
@@ -81,15 +85,37 @@ pub struct SingularStage {
 
 /// The exact small-signal behaviour of a stage, in node-voltage form.
 pub trait StageSolve {
+    /// Its frequency-independent values, from which [`SmallSignal::solve`]
+    /// solves each frequency.
+    type Values: SmallSignal;
+    /// The kind's name, for errors.
+    const NAME: &'static str;
+
+    /// Its values for one set of parameter values.
+    fn values(&self, values: &[f64]) -> Self::Values;
+
+    /// Its solve at one point, driving `load`.
+    fn solved_at(&self, point: &Point, load: &Mat2) -> Solved<C64> {
+        self.values(point.values).solve(
+            &Frequency::new(point.freq_hz),
+            &Admittance::from_matrix(load),
+        )
+    }
+
     /// The admittance its input pins present to whatever drives them,
     /// `[i_p, i_n] = Y [v_p, v_n]` (currents flowing into the pins), when
-    /// its outputs drive `load`. Stages whose outputs are ideal sources
-    /// ignore the load.
-    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2;
+    /// its outputs drive `load`.
+    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2 {
+        self.solved_at(point, load).input.matrix()
+    }
 
     /// The transfer from its input pin voltages to its output node voltages,
     /// given the admittance `load` of what it drives.
-    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage>;
+    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
+        self.solved_at(point, load)
+            .transfer
+            .matrix(Self::NAME, point.freq_hz)
+    }
 
     /// Internal and output nodes whose voltage must stay within a range
     /// (input common-mode ranges, output swings, transistor saturation),
@@ -194,32 +220,96 @@ impl StageKind {
         !matches!(self, StageKind::SourceNetwork(_))
     }
 
-    fn solver(&self) -> &dyn StageSolve {
+    /// Its frequency-independent values for one set of parameter values.
+    pub fn values(&self, values: &[f64]) -> StageValues {
         match self {
-            StageKind::SourceNetwork(stage) => stage,
-            StageKind::DifferenceAmp(stage) => stage,
-            StageKind::ThreeOpAmpInAmp(stage) => stage,
-            StageKind::IntegratedInAmp(stage) => stage,
-            StageKind::DifferentialPair(stage) => stage,
-            StageKind::Adc(stage) => stage,
+            StageKind::SourceNetwork(stage) => StageValues::SourceNetwork(stage.values(values)),
+            StageKind::DifferenceAmp(stage) => StageValues::DifferenceAmp(stage.values(values)),
+            StageKind::ThreeOpAmpInAmp(stage) => StageValues::ThreeOpAmpInAmp(stage.values(values)),
+            StageKind::IntegratedInAmp(stage) => StageValues::IntegratedInAmp(stage.values(values)),
+            StageKind::DifferentialPair(stage) => {
+                StageValues::DifferentialPair(stage.values(values))
+            }
+            StageKind::Adc(stage) => StageValues::Adc(stage.values(values)),
         }
     }
 }
 
-impl StageSolve for StageKind {
-    fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2 {
-        self.solver().input_admittance(point, load)
+/// Call `$body` with `$stage` bound to the stage inside a [`StageKind`].
+macro_rules! each_kind {
+    ($kind:expr, $stage:ident => $body:expr) => {
+        match $kind {
+            StageKind::SourceNetwork($stage) => $body,
+            StageKind::DifferenceAmp($stage) => $body,
+            StageKind::ThreeOpAmpInAmp($stage) => $body,
+            StageKind::IntegratedInAmp($stage) => $body,
+            StageKind::DifferentialPair($stage) => $body,
+            StageKind::Adc($stage) => $body,
+        }
+    };
+}
+
+impl StageKind {
+    /// See [`StageSolve::input_admittance`].
+    pub fn input_admittance(&self, point: &Point, load: &Mat2) -> Mat2 {
+        each_kind!(self, stage => stage.input_admittance(point, load))
     }
 
-    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
-        self.solver().transfer(point, load)
+    /// See [`StageSolve::transfer`].
+    pub fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
+        each_kind!(self, stage => stage.transfer(point, load))
     }
 
-    fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
-        self.solver().probes(point, load)
+    /// See [`StageSolve::probes`].
+    pub fn probes(&self, point: &Point, load: &Mat2) -> Vec<Probe> {
+        each_kind!(self, stage => stage.probes(point, load))
     }
 
-    fn output_levels(&self, point: &Point, load: &Mat2) -> [f64; 2] {
-        self.solver().output_levels(point, load)
+    /// See [`StageSolve::output_levels`].
+    pub fn output_levels(&self, point: &Point, load: &Mat2) -> [f64; 2] {
+        each_kind!(self, stage => stage.output_levels(point, load))
+    }
+
+    /// The kind's name for errors (see [`StageSolve::NAME`]).
+    pub fn solve_name(&self) -> &'static str {
+        fn name<S: StageSolve>(_: &S) -> &'static str {
+            S::NAME
+        }
+        each_kind!(self, stage => name(stage))
+    }
+}
+
+/// A stage's frequency-independent values, by kind (see
+/// [`StageKind::values`]).
+// Held in the Monte Carlo's per-trial scratch and read in its inner loop;
+// inline variants avoid a pointer chase there.
+#[allow(clippy::large_enum_variant)]
+#[derive(Debug, Clone, PartialEq)]
+pub enum StageValues {
+    /// A source network's.
+    SourceNetwork(SourceValues),
+    /// A difference amplifier's.
+    DifferenceAmp(DifferenceValues),
+    /// A three-op-amp in-amp's.
+    ThreeOpAmpInAmp(ThreeOpAmpValues),
+    /// An integrated in-amp's.
+    IntegratedInAmp(IntegratedValues),
+    /// A differential pair's.
+    DifferentialPair(PairValues),
+    /// A converter's.
+    Adc(AdcValues),
+}
+
+impl SmallSignal for StageValues {
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, load: &Admittance<N>) -> Solved<N> {
+        match self {
+            StageValues::SourceNetwork(v) => v.solve(w, load),
+            StageValues::DifferenceAmp(v) => v.solve(w, load),
+            StageValues::ThreeOpAmpInAmp(v) => v.solve(w, load),
+            StageValues::IntegratedInAmp(v) => v.solve(w, load),
+            StageValues::DifferentialPair(v) => v.solve(w, load),
+            StageValues::Adc(v) => v.solve(w, load),
+        }
     }
 }

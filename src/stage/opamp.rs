@@ -10,8 +10,7 @@
 //! the input common mode. The output is an ideal voltage source and the
 //! inputs draw no current.
 
-use super::{Point, VoltageRange};
-use crate::engine::linalg::{C64, ZERO};
+use super::{Frequency, Lane, VoltageRange};
 use crate::model::ParamId;
 
 /// An op-amp's small-signal parameters. Absent parameters are ideal.
@@ -37,32 +36,49 @@ pub struct OpAmp {
 }
 
 impl OpAmp {
-    /// `1 / A(jf)`: zero for an ideal amplifier.
-    pub fn inverse_gain(&self, point: &Point) -> C64 {
-        let dc = self.open_loop_gain.map_or(0.0, |id| 1.0 / point.value(id));
-        let pole = self
-            .gain_bandwidth_hz
-            .map_or(ZERO, |id| C64::new(0.0, point.freq_hz / point.value(id)));
-        C64::new(dc, 0.0) + pole
+    /// Its frequency-independent values for one set of parameter values.
+    pub fn values(&self, v: &[f64]) -> OpAmpValues {
+        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
+        OpAmpValues {
+            inverse_a0: self.open_loop_gain.map_or(0.0, |id| 1.0 / v[id.0]),
+            inverse_gbw: self.gain_bandwidth_hz.map_or(0.0, |id| 1.0 / v[id.0]),
+            c0,
+            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+        }
     }
+}
 
-    /// `1 / CMRR(jf)`, signed: zero for an ideal amplifier.
-    pub fn inverse_cmrr(&self, point: &Point) -> C64 {
-        let Some(id) = self.cmrr_reciprocal else {
-            return ZERO;
-        };
-        let dc = point.value(id);
-        let corner = self.cmrr_corner_hz.map_or(ZERO, |corner| {
-            C64::new(0.0, point.freq_hz / point.value(corner))
-        });
-        C64::new(dc, 0.0) * (C64::new(1.0, 0.0) + corner)
+/// An op-amp's frequency-independent values: `1/A0`, `1/GBW`, `c0` and
+/// `c0/fc` (zero where the amplifier is ideal in that respect).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct OpAmpValues {
+    inverse_a0: f64,
+    inverse_gbw: f64,
+    c0: f64,
+    c0_per_corner: f64,
+}
+
+impl OpAmpValues {
+    /// `(1/A(jf), 1/CMRR(jf))`: `1/A0 + j f/GBW` and `c0 + j f c0/fc`.
+    #[inline(always)]
+    pub fn at<N: Lane>(&self, w: &Frequency<N>) -> (N, N) {
+        (
+            N::with_imaginary(self.inverse_a0, w.hz * self.inverse_gbw),
+            N::with_imaginary(self.c0, w.hz * self.c0_per_corner),
+        )
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::engine::linalg::{C64, ZERO};
     use approx::assert_relative_eq;
+
+    /// (1/A(jf), 1/CMRR(jf)) at one point.
+    fn at(opamp: &OpAmp, values: &[f64], freq_hz: f64) -> (C64, C64) {
+        opamp.values(values).at(&Frequency::new(freq_hz))
+    }
 
     #[test]
     fn single_pole_gain() {
@@ -75,13 +91,13 @@ mod tests {
             gain_bandwidth_hz: Some(ParamId(1)),
             ..OpAmp::default()
         };
-        let at_pole = opamp.inverse_gain(&Point::new(10.0, &values));
+        let at_pole = at(&opamp, &values, 10.0).0;
         assert_relative_eq!(
             1.0 / at_pole.norm(),
             1e5 / 2f64.sqrt(),
             max_relative = 1e-12
         );
-        let at_1k = opamp.inverse_gain(&Point::new(1e3, &values));
+        let at_1k = at(&opamp, &values, 1e3).0;
         assert_relative_eq!(1.0 / at_1k.norm(), 1e3, max_relative = 1e-4);
     }
 
@@ -93,13 +109,13 @@ mod tests {
             cmrr_corner_hz: Some(ParamId(1)),
             ..OpAmp::default()
         };
-        let dc = opamp.inverse_cmrr(&Point::new(0.0, &values));
+        let dc = at(&opamp, &values, 0.0).1;
         assert_relative_eq!(dc.re, 1e-5);
         // A decade above the corner the CMRR is 20 dB lower (to within 0.05 dB).
-        let high = opamp.inverse_cmrr(&Point::new(1e3, &values)).norm();
+        let high = at(&opamp, &values, 1e3).1.norm();
         assert_relative_eq!(20.0 * (high / 1e-5).log10(), 20.0, epsilon = 0.05);
         let ideal = OpAmp::default();
-        assert_eq!(ideal.inverse_gain(&Point::new(1e3, &values)), ZERO);
-        assert_eq!(ideal.inverse_cmrr(&Point::new(1e3, &values)), ZERO);
+        assert_eq!(at(&ideal, &values, 1e3).0, ZERO);
+        assert_eq!(at(&ideal, &values, 1e3).1, ZERO);
     }
 }

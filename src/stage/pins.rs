@@ -1,33 +1,43 @@
 //! The shunt an amplifier's input pins present to ground: a common-mode
 //! input resistance in parallel with a capacitance, per pin.
 
-use super::Point;
-use crate::engine::linalg::{Mat2, C64, ZERO};
+use super::{Admittance, Frequency, Lane};
 use crate::model::ParamId;
 
-/// One pin's shunt to ground; absent parts are open circuits.
+/// One pin's shunt to ground; absent parts are open.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct PinShunt {
-    /// Resistance to ground.
+    /// Resistance to ground, Ω.
     pub resistance: Option<ParamId>,
-    /// Capacitance to ground.
+    /// Capacitance to ground, F.
     pub capacitance: Option<ParamId>,
 }
 
 impl PinShunt {
-    /// The shunt's admittance at `point`.
-    pub fn admittance(&self, point: &Point) -> C64 {
-        let conductance = self.resistance.map_or(0.0, |r| 1.0 / point.value(r));
-        C64::new(conductance, 0.0) + point.s * point.value_or(self.capacitance, 0.0)
+    /// Both pins' values for one set of parameter values.
+    pub fn values(pins: &[PinShunt; 2], v: &[f64]) -> [PinValues; 2] {
+        pins.map(|pin| PinValues {
+            conductance: pin.resistance.map_or(0.0, |r| 1.0 / v[r.0]),
+            capacitance: pin.capacitance.map_or(0.0, |c| v[c.0]),
+        })
     }
+}
 
-    /// The 2x2 admittance matrix of a pair of pin shunts (no coupling).
-    pub fn pair_admittance(pins: &[PinShunt; 2], point: &Point) -> Mat2 {
-        Mat2::new(
-            pins[0].admittance(point),
-            ZERO,
-            ZERO,
-            pins[1].admittance(point),
+/// A pin's shunt as values: conductance, S, and capacitance, F.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct PinValues {
+    /// Conductance to ground, S.
+    pub conductance: f64,
+    /// Capacitance to ground, F.
+    pub capacitance: f64,
+}
+
+impl PinValues {
+    /// Both pins as shunt admittances `G + jωC`.
+    #[inline(always)]
+    pub fn admittance<N: Lane>(pins: &[PinValues; 2], w: &Frequency<N>) -> Admittance<N> {
+        Admittance::shunts(
+            pins.map(|pin| N::with_imaginary(pin.conductance, w.omega * pin.capacitance)),
         )
     }
 }

@@ -14,13 +14,13 @@
 //! two pins (a driven guard of effectiveness `g`), which divides the cable
 //! capacitance's common-mode current by `1/(1 − g)`.
 //!
-//! Exact nodal analysis of up to four nodes per solve. In the limit of a
+//! Exact nodal analysis: each leg's cable node substituted out, leaving
+//! two equations in the two pins, solved by the adjugate. In the limit of a
 //! purely resistive source and a capacitive shunt, the conversion is
 //! `vdm/vcm = Zc1/(Zc1 + Zs1) − Zc2/(Zc2 + Zs2)`, so `CMRR ≈ |Zc/ΔZs|`
 //! (checked in the tests).
 
-use super::{Point, SingularStage, StageSolve};
-use crate::engine::linalg::{Mat2, NodalSystem, Node, C64};
+use super::{Admittance, Frequency, Lane, Rows, SmallSignal, Solved, StageSolve, Transfer};
 use crate::model::ParamId;
 
 /// The impedance of the sensor seen from one leg.
@@ -42,27 +42,6 @@ pub enum SourceImpedance {
         /// The arm from this node to ground.
         lower_arm: ParamId,
     },
-}
-
-impl SourceImpedance {
-    fn admittance(&self, point: &Point) -> C64 {
-        match *self {
-            SourceImpedance::Resistive {
-                resistance,
-                capacitance,
-            } => {
-                C64::new(1.0 / point.value(resistance), 0.0)
-                    + point.s * point.value_or(capacitance, 0.0)
-            }
-            SourceImpedance::BridgeNode {
-                upper_arm,
-                lower_arm,
-            } => C64::new(
-                1.0 / point.value(upper_arm) + 1.0 / point.value(lower_arm),
-                0.0,
-            ),
-        }
-    }
 }
 
 /// The parts of one leg, in order from the sensor to the amplifier pin.
@@ -95,76 +74,133 @@ pub struct SourceNetwork {
 }
 
 impl StageSolve for SourceNetwork {
-    /// The source network is driven by the sensor's ideal EMFs, so nothing
-    /// upstream sees its input admittance; it is reported as an open
-    /// circuit.
-    fn input_admittance(&self, _point: &Point, _load: &Mat2) -> Mat2 {
-        Mat2::ZERO
-    }
+    type Values = SourceValues;
+    const NAME: &'static str = "source network";
 
-    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
-        // Node numbering: each leg's cable node `a`, then its pin `b`
-        // (the same node when there is no series resistor).
-        let mut next = 0;
-        let mut cable_nodes = [Node::Ground; 2];
-        let mut pin_nodes = [Node::Ground; 2];
-        for (leg_index, leg) in self.legs.iter().enumerate() {
-            cable_nodes[leg_index] = Node::At(next);
-            next += 1;
-            pin_nodes[leg_index] = if leg.series_resistance.is_some() {
-                next += 1;
-                Node::At(next - 1)
-            } else {
-                cable_nodes[leg_index]
-            };
-        }
-        let mut system = NodalSystem::new(next);
-        for (leg_index, leg) in self.legs.iter().enumerate() {
-            let a = cable_nodes[leg_index];
-            let b = pin_nodes[leg_index];
-            system.admittance_to_input(a, leg_index, leg.source.admittance(point));
-            if let Some(cable) = leg.cable_capacitance {
-                let y = point.s * point.value(cable);
-                if self.guard_drive == 0.0 {
-                    system.admittance(a, Node::Ground, y);
-                } else {
-                    system.coupling(a, a, y);
-                    let driven = -y * (self.guard_drive / 2.0);
-                    system.coupling(a, pin_nodes[0], driven);
-                    system.coupling(a, pin_nodes[1], driven);
+    fn values(&self, v: &[f64]) -> SourceValues {
+        let optional = |id: Option<ParamId>| id.map_or(0.0, |id| v[id.0]);
+        SourceValues {
+            guard: self.guard_drive / 2.0,
+            differential_c: optional(self.differential_capacitance),
+            legs: self.legs.each_ref().map(|leg| {
+                let (gs, cs) = match leg.source {
+                    SourceImpedance::Resistive {
+                        resistance,
+                        capacitance,
+                    } => (1.0 / v[resistance.0], optional(capacitance)),
+                    SourceImpedance::BridgeNode {
+                        upper_arm,
+                        lower_arm,
+                    } => (1.0 / v[upper_arm.0] + 1.0 / v[lower_arm.0], 0.0),
+                };
+                LegValues {
+                    gs,
+                    cs,
+                    cable: optional(leg.cable_capacitance),
+                    series: leg.series_resistance.map(|id| 1.0 / v[id.0]),
+                    shunt_c: optional(leg.filter_capacitance) + optional(leg.input_capacitance),
+                    shunt_g: leg.input_resistance.map_or(0.0, |id| 1.0 / v[id.0]),
                 }
-            }
-            if let Some(series) = leg.series_resistance {
-                system.admittance(a, b, C64::new(1.0 / point.value(series), 0.0));
-            }
-            let mut shunt = point.s * point.value_or(leg.filter_capacitance, 0.0)
-                + point.s * point.value_or(leg.input_capacitance, 0.0);
-            if let Some(resistance) = leg.input_resistance {
-                shunt += 1.0 / point.value(resistance);
-            }
-            system.admittance(b, Node::Ground, shunt);
+            }),
         }
-        if let Some(across) = self.differential_capacitance {
-            system.admittance(pin_nodes[0], pin_nodes[1], point.s * point.value(across));
+    }
+}
+
+/// One leg's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+struct LegValues {
+    /// Source conductance, S.
+    gs: f64,
+    /// Source capacitance, F.
+    cs: f64,
+    /// Cable capacitance, F.
+    cable: f64,
+    /// Series resistor's conductance, S (none: no resistor).
+    series: Option<f64>,
+    /// Filter and input capacitance at the pin, F.
+    shunt_c: f64,
+    /// Input conductance at the pin, S.
+    shunt_g: f64,
+}
+
+/// A source network's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct SourceValues {
+    legs: [LegValues; 2],
+    /// Half the guard drive: the guard follows this times each pin.
+    guard: f64,
+    differential_c: f64,
+}
+
+/// `value` × `den`, or `value` where there is no denominator.
+#[inline(always)]
+fn times<N: Lane>(value: N, den: Option<N>) -> N {
+    match den {
+        Some(d) => value * d,
+        None => value,
+    }
+}
+
+impl SmallSignal for SourceValues {
+    /// The nodal equations in the two pins, `M v = diag(drive) e` (e the
+    /// sensor's two node voltages), solved by the adjugate. A leg with a
+    /// series resistor has its cable node substituted out, its pin row
+    /// multiplied through by the node's total admittance S; each row is
+    /// multiplied through by the load row's denominator, so nothing is
+    /// divided. The network presents nothing to drive (it is first).
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, load: &Admittance<N>) -> Solved<N> {
+        let omega = w.omega;
+        let yd = omega * self.differential_c;
+        let mut m = [[N::zero(); 2]; 2];
+        let mut drive = [N::zero(); 2];
+        for (i, leg) in self.legs.iter().enumerate() {
+            let j = 1 - i;
+            let ys = N::with_imaginary(leg.gs, omega * leg.cs);
+            let yc = omega * leg.cable;
+            let k = yc * self.guard;
+            let shunt = N::with_imaginary(leg.shunt_g, omega * leg.shunt_c);
+            let (load_own, load_across, den) = load.row(i);
+            let (own, across, source, load_scale) = match leg.series {
+                Some(gr) => {
+                    // Cable node a = (ys e + gr v + k (v_0 + v_1)) / S.
+                    let total = ys + N::new(N::constant(gr), yc);
+                    let own = (shunt + N::new(N::constant(gr), yd)) * total
+                        - N::new(N::constant(gr * gr), k * gr);
+                    let across = -total.times_imaginary(yd) - N::new(N::constant(0.0), k * gr);
+                    (own, across, ys * gr, Some(total))
+                }
+                None => {
+                    let own = ys + shunt + N::new(N::constant(0.0), yc - k + yd);
+                    let across = N::new(N::constant(0.0), -(k + yd));
+                    (own, across, ys, None)
+                }
+            };
+            m[i][i] = times(own, den) + times(load_own, load_scale);
+            m[i][j] = times(across, den);
+            if let Some(load_across) = load_across {
+                m[i][j] = m[i][j] + times(load_across, load_scale);
+            }
+            drive[i] = times(source, den);
         }
-        system.admittance_matrix(pin_nodes[0], pin_nodes[1], load);
-        let solution = system.solve().ok_or(SingularStage {
-            stage: "source network",
-            freq_hz: point.freq_hz,
-        })?;
-        let pin = |node: Node| match node {
-            Node::At(i) => solution[i],
-            Node::Ground => [C64::new(0.0, 0.0); 2],
-        };
-        let p = pin(pin_nodes[0]);
-        let n = pin(pin_nodes[1]);
-        Ok(Mat2::new(p[0], p[1], n[0], n[1]))
+        Solved {
+            input: Admittance::open(),
+            transfer: Transfer {
+                rows: Rows::Both([
+                    [m[1][1] * drive[0], -(m[0][1] * drive[1])],
+                    [-(m[1][0] * drive[0]), m[0][0] * drive[1]],
+                ]),
+                den: Some(m[0][0] * m[1][1] - m[0][1] * m[1][0]),
+            },
+        }
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::engine::linalg::{Mat2, C64};
+    use crate::stage::Point;
     use approx::assert_relative_eq;
 
     fn resistive_leg(r: usize, c: usize) -> Leg {
@@ -195,7 +231,7 @@ mod tests {
         };
         let point = Point::new(1e3, &values);
         let t = network.transfer(&point, &Mat2::ZERO).unwrap();
-        let zc = 1.0 / (point.s * 1e-9);
+        let zc = 1.0 / (C64::new(0.0, 2.0 * std::f64::consts::PI * 1e3) * 1e-9);
         let expected = zc / (zc + 1e3) - zc / (zc + 1.1e3);
         let common = t.apply([C64::new(1.0, 0.0), C64::new(1.0, 0.0)]);
         let got = common[0] - common[1];

@@ -20,8 +20,11 @@
 //! (checked in the tests). Op-amp outputs are ideal sources, so the
 //! difference stage does not load the first.
 
-use super::{DifferenceAmp, OpAmp, PinShunt, Point, Probe, SingularStage, StageSolve};
-use crate::engine::linalg::{Mat2, NodalSystem, Node, C64};
+use super::{
+    Admittance, DifferenceAmp, DifferenceValues, Frequency, Lane, OpAmp, OpAmpValues, PinShunt,
+    PinValues, Point, Probe, Rows, SingularStage, SmallSignal, Solved, StageSolve, Transfer,
+};
+use crate::engine::linalg::{Mat2, C64};
 use crate::model::ParamId;
 
 /// A three-op-amp instrumentation amplifier.
@@ -42,50 +45,108 @@ pub struct ThreeOpAmpInAmp {
 }
 
 impl ThreeOpAmpInAmp {
-    /// The first stage's transfer: `[o1, o2] = F [v_p, v_n]`.
+    /// The first stage alone: its two outputs per volt at its two inputs.
     pub fn first_stage_transfer(&self, point: &Point) -> Result<Mat2, SingularStage> {
-        let (o1, o2, y1, y2) = (Node::At(0), Node::At(1), Node::At(2), Node::At(3));
-        let g_rg = C64::new(1.0 / point.value(self.rg), 0.0);
-        let g_rf = [
-            C64::new(1.0 / point.value(self.rf1), 0.0),
-            C64::new(1.0 / point.value(self.rf2), 0.0),
+        self.values(point.values)
+            .first_stage(&Frequency::new(point.freq_hz))
+            .matrix(Self::NAME, point.freq_hz)
+    }
+}
+
+/// A three-op-amp in-amp's frequency-independent values.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct ThreeOpAmpValues {
+    pins: [PinValues; 2],
+    first: [OpAmpValues; 2],
+    g_gain: f64,
+    g_feedback: [f64; 2],
+    difference: DifferenceValues,
+}
+
+impl ThreeOpAmpValues {
+    /// The first stage as `M o = B v`, solved by the adjugate:
+    /// `o = adj(M) B v / det M`.
+    ///
+    /// Each op-amp gives `D_i y_i = P_i v_i − a_i o_i`, with `D = 1 − c/2`,
+    /// `P = 1 + c/2`, `a = 1/A` and y its inverting input; the two
+    /// inverting-input currents, each multiplied through by `D_1 D_2` to
+    /// substitute y out, are the two rows of `M o = B v`.
+    #[inline(always)]
+    fn first_stage_system<N: Lane>(&self, w: &Frequency<N>) -> ([[N; 2]; 2], [[N; 2]; 2]) {
+        let g_g = self.g_gain;
+        let [g1, g2] = self.g_feedback;
+        let (a1, c1) = self.first[0].at(w);
+        let (a2, c2) = self.first[1].at(w);
+        let (d1, p1) = (N::one() - c1 * 0.5, N::one() + c1 * 0.5);
+        let (d2, p2) = (N::one() - c2 * 0.5, N::one() + c2 * 0.5);
+        let d12 = d1 * d2;
+        let m = [
+            [-(a1 * d2 * (g1 + g_g)) - d12 * g1, a2 * d1 * g_g],
+            [a1 * d2 * g_g, -(a2 * d1 * (g2 + g_g)) - d12 * g2],
         ];
-        let mut system = NodalSystem::new(4);
-        for (side, (output, inverting)) in [(o1, y1), (o2, y2)].into_iter().enumerate() {
-            let opamp = &self.first_stage[side];
-            let c = opamp.inverse_cmrr(point);
-            // The op-amp's equation stands in the row of its output node.
-            system.coupling(output, output, opamp.inverse_gain(point));
-            system.coupling(output, inverting, 1.0 - c / 2.0);
-            system.input_term(output, side, 1.0 + c / 2.0);
-            // KCL at the inverting input.
-            system.coupling(inverting, inverting, g_rf[side] + g_rg);
-            system.coupling(inverting, output, -g_rf[side]);
+        let (p1d2, p2d1) = (p1 * d2, p2 * d1);
+        let b = [
+            [-(p1d2 * (g1 + g_g)), p2d1 * g_g],
+            [p1d2 * g_g, -(p2d1 * (g2 + g_g))],
+        ];
+        (m, b)
+    }
+
+    /// The first stage's transfer, outputs (A1, A2) from inputs (p, n).
+    #[inline(always)]
+    pub fn first_stage<N: Lane>(&self, w: &Frequency<N>) -> Transfer<N> {
+        let (m, b) = self.first_stage_system(w);
+        let adjugate = [[m[1][1], -m[0][1]], [-m[1][0], m[0][0]]];
+        let product = |i: usize, k: usize| adjugate[i][0] * b[0][k] + adjugate[i][1] * b[1][k];
+        Transfer {
+            rows: Rows::Both([
+                [product(0, 0), product(0, 1)],
+                [product(1, 0), product(1, 1)],
+            ]),
+            den: Some(m[0][0] * m[1][1] - m[0][1] * m[1][0]),
         }
-        system.coupling(y1, y2, -g_rg);
-        system.coupling(y2, y1, -g_rg);
-        let solution = system.solve().ok_or(SingularStage {
-            stage: "three-op-amp instrumentation amplifier",
-            freq_hz: point.freq_hz,
-        })?;
-        Ok(Mat2::new(
-            solution[0][0],
-            solution[0][1],
-            solution[1][0],
-            solution[1][1],
-        ))
+    }
+}
+
+impl SmallSignal for ThreeOpAmpValues {
+    /// Output `(m̃_p, m̃_n) · adj(M) · B · v / (s det M)`, the difference
+    /// stage's gains `m̃/s` applied to the first stage's outputs. The outputs
+    /// are ideal sources, so the load does not matter; the pins draw their
+    /// shunts.
+    #[inline(always)]
+    fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
+        let (m, b) = self.first_stage_system(w);
+        let gains = self.difference.gains(w);
+        // (m̃_p, m̃_n) · adj(M).
+        let t = [
+            gains.p * m[1][1] - gains.n * m[1][0],
+            gains.n * m[0][0] - gains.p * m[0][1],
+        ];
+        Solved {
+            input: PinValues::admittance(&self.pins, w),
+            transfer: Transfer {
+                rows: Rows::Single([
+                    t[0] * b[0][0] + t[1] * b[1][0],
+                    t[0] * b[0][1] + t[1] * b[1][1],
+                ]),
+                den: Some(gains.scale * (m[0][0] * m[1][1] - m[0][1] * m[1][0])),
+            },
+        }
     }
 }
 
 impl StageSolve for ThreeOpAmpInAmp {
-    fn input_admittance(&self, point: &Point, _load: &Mat2) -> Mat2 {
-        PinShunt::pair_admittance(&self.pins, point)
-    }
+    type Values = ThreeOpAmpValues;
+    const NAME: &'static str = "three-op-amp instrumentation amplifier";
 
-    fn transfer(&self, point: &Point, load: &Mat2) -> Result<Mat2, SingularStage> {
-        let first = self.first_stage_transfer(point)?;
-        let second = self.difference_stage.transfer(point, load)?;
-        Ok(second * first)
+    fn values(&self, v: &[f64]) -> ThreeOpAmpValues {
+        ThreeOpAmpValues {
+            pins: PinShunt::values(&self.pins, v),
+            first: self.first_stage.map(|opamp| opamp.values(v)),
+            g_gain: 1.0 / v[self.rg.0],
+            g_feedback: [1.0 / v[self.rf1.0], 1.0 / v[self.rf2.0]],
+            difference: self.difference_stage.values(v),
+        }
     }
 
     fn output_levels(&self, point: &Point, _load: &Mat2) -> [f64; 2] {

@@ -10,7 +10,8 @@ use super::{
     Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 use crate::engine::{
-    analyse_point_at, check_headroom, worst_corner, CornerSearch, EngineError, PointAnalysis,
+    analyse_point_at, check_headroom, ranking_key, worst_corner, CornerSearch, EngineError,
+    PointAnalysis,
 };
 use crate::model::{Amplitude, Budget, Interference, Judgement, Presentation, Requirement};
 use crate::quantity::{format_db, format_quantity, Dimension};
@@ -277,7 +278,7 @@ fn contribution_rows(
             share: share(magnitude),
         });
     }
-    rows.sort_by(|a, b| b.share.total_cmp(&a.share));
+    rows.sort_by(|a, b| ranking_key(b.share).total_cmp(&ranking_key(a.share)));
     rows
 }
 

@@ -1,19 +1,162 @@
-//! Complex arithmetic on a few values at once, laid out so the compiler
-//! turns each operation into one vector instruction per part: the Monte
-//! Carlo's closed forms run on [`LANES`] analysis frequencies together.
+//! The number type every stage's per-frequency solve is written over: one
+//! complex value ([`C64`], for a single analysis point) or [`LANES`] of them
+//! in structure-of-arrays form ([`Complexes`], for the Monte Carlo and the
+//! corner search, several frequencies at once), laid out so the compiler
+//! turns each operation into one vector instruction per part.
 //!
 //! Every operation is the plain IEEE one on each lane (no fused
 //! multiply-add, no reassociation), so a lane gives bit for bit what the
-//! same expression gives on one `f64`, whatever instructions carry it.
+//! same expression gives on one [`C64`], whatever instructions carry it.
 
+use super::linalg::C64;
 use std::ops::{Add, Div, Mul, Neg, Sub};
 
+/// A complex number, or several at once, as the stage solves use them.
+///
+/// Only ring operations: the solves are written free of division (a
+/// transfer is a numerator over a denominator kept apart), so one code
+/// serves both a single point, where the denominator is divided out at the
+/// end, and the Monte Carlo, where it cancels from the conversion.
+pub trait Lane:
+    Copy
+    + Add<Output = Self>
+    + Sub<Output = Self>
+    + Mul<Output = Self>
+    + Neg<Output = Self>
+    + Mul<f64, Output = Self>
+{
+    /// The real numbers alongside: `f64` or [`Reals`].
+    type Real: Copy
+        + Add<Output = Self::Real>
+        + Sub<Output = Self::Real>
+        + Mul<Output = Self::Real>
+        + Mul<f64, Output = Self::Real>
+        + Neg<Output = Self::Real>;
+
+    /// From real and imaginary parts.
+    fn new(re: Self::Real, im: Self::Real) -> Self;
+    /// A real constant.
+    fn real(value: f64) -> Self;
+    /// `real` + j·`imaginary`, the real part a constant.
+    fn with_imaginary(real: f64, imaginary: Self::Real) -> Self;
+    /// z × j·`imaginary`.
+    fn times_imaginary(self, imaginary: Self::Real) -> Self;
+    /// |z|².
+    fn norm_sqr(self) -> Self::Real;
+    /// A real constant in the real type.
+    fn constant(value: f64) -> Self::Real;
+    /// Whether every part is finite and the value not zero: a usable
+    /// denominator. Lanes are not checked one by one (the Monte Carlo
+    /// checks its results instead), so for them this is always true.
+    fn usable_denominator(self) -> bool;
+    /// Whether every part is finite (always true for lanes, as above).
+    fn finite(self) -> bool;
+
+    /// Zero.
+    #[inline(always)]
+    fn zero() -> Self {
+        Self::real(0.0)
+    }
+
+    /// One.
+    #[inline(always)]
+    fn one() -> Self {
+        Self::real(1.0)
+    }
+}
+
+impl Lane for C64 {
+    type Real = f64;
+
+    #[inline(always)]
+    fn new(re: f64, im: f64) -> C64 {
+        C64::new(re, im)
+    }
+
+    #[inline(always)]
+    fn real(value: f64) -> C64 {
+        C64::new(value, 0.0)
+    }
+
+    #[inline(always)]
+    fn with_imaginary(real: f64, imaginary: f64) -> C64 {
+        C64::new(real, imaginary)
+    }
+
+    #[inline(always)]
+    fn times_imaginary(self, imaginary: f64) -> C64 {
+        C64::new(-(self.im * imaginary), self.re * imaginary)
+    }
+
+    #[inline(always)]
+    fn norm_sqr(self) -> f64 {
+        self.re * self.re + self.im * self.im
+    }
+
+    #[inline(always)]
+    fn constant(value: f64) -> f64 {
+        value
+    }
+
+    fn usable_denominator(self) -> bool {
+        self.finite() && (self.re != 0.0 || self.im != 0.0)
+    }
+
+    fn finite(self) -> bool {
+        self.re.is_finite() && self.im.is_finite()
+    }
+}
+
+impl Lane for Complexes {
+    type Real = Reals;
+
+    #[inline(always)]
+    fn new(re: Reals, im: Reals) -> Complexes {
+        Complexes { re, im }
+    }
+
+    #[inline(always)]
+    fn real(value: f64) -> Complexes {
+        Complexes::new(Reals::splat(value), Reals::splat(0.0))
+    }
+
+    #[inline(always)]
+    fn with_imaginary(real: f64, imaginary: Reals) -> Complexes {
+        Complexes::new(Reals::splat(real), imaginary)
+    }
+
+    #[inline(always)]
+    fn times_imaginary(self, imaginary: Reals) -> Complexes {
+        Complexes::new(-(self.im * imaginary), self.re * imaginary)
+    }
+
+    #[inline(always)]
+    fn norm_sqr(self) -> Reals {
+        self.re * self.re + self.im * self.im
+    }
+
+    #[inline(always)]
+    fn constant(value: f64) -> Reals {
+        Reals::splat(value)
+    }
+
+    #[inline(always)]
+    fn usable_denominator(self) -> bool {
+        true
+    }
+
+    #[inline(always)]
+    fn finite(self) -> bool {
+        true
+    }
+}
+
 /// How many values travel together.
-pub(crate) const LANES: usize = 4;
+pub const LANES: usize = 4;
 
 /// [`LANES`] real numbers.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct Reals(pub [f64; LANES]);
+pub struct Reals(pub [f64; LANES]);
 
 impl Reals {
     /// The same value in every lane.
@@ -86,55 +229,11 @@ impl Mul<f64> for Reals {
 
 /// [`LANES`] complex numbers, real and imaginary parts apart.
 #[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct Complexes {
+pub struct Complexes {
     /// Real parts.
     pub re: Reals,
     /// Imaginary parts.
     pub im: Reals,
-}
-
-/// 1 + 0j in every lane.
-pub(crate) const ONE: Complexes = Complexes {
-    re: Reals([1.0; LANES]),
-    im: Reals([0.0; LANES]),
-};
-
-/// 0 in every lane.
-pub(crate) const ZERO: Complexes = Complexes {
-    re: Reals([0.0; LANES]),
-    im: Reals([0.0; LANES]),
-};
-
-impl Complexes {
-    /// From real and imaginary parts.
-    #[inline(always)]
-    pub fn new(re: Reals, im: Reals) -> Complexes {
-        Complexes { re, im }
-    }
-
-    /// A real constant in every lane.
-    #[inline(always)]
-    pub fn real(value: f64) -> Complexes {
-        Complexes::new(Reals::splat(value), Reals::splat(0.0))
-    }
-
-    /// `real` + j·`imaginary`, the real part the same in every lane.
-    #[inline(always)]
-    pub fn with_imaginary(real: f64, imaginary: Reals) -> Complexes {
-        Complexes::new(Reals::splat(real), imaginary)
-    }
-
-    /// z × j·`imaginary` per lane.
-    #[inline(always)]
-    pub fn times_imaginary(self, imaginary: Reals) -> Complexes {
-        Complexes::new(-(self.im * imaginary), self.re * imaginary)
-    }
-
-    /// |z|² per lane.
-    #[inline(always)]
-    pub fn norm_sqr(self) -> Reals {
-        self.re * self.re + self.im * self.im
-    }
 }
 
 impl Add for Complexes {

@@ -1,0 +1,222 @@
+//! The chain solved from its stages' values: one composition, written over
+//! [`Lane`], for a single analysis point and for many frequencies at once.
+//!
+//! From the last stage back, each stage is solved with the input admittance
+//! of the stage after it as its load, and its transfer multiplied on from
+//! the right, so the whole chain's transfer `T_k ··· T_1` is built in one
+//! pass with nothing stored. At a single point ([`super::chain_response`])
+//! each stage's transfer is checked and the denominators divided out at
+//! the end. For many frequencies ([`ChainKernel`]), the conversion
+//! `|ε|² = |Adc|²/|Add|²` is formed from the numerators alone, the
+//! denominators cancelling; the per-frequency work runs on [`LANES`]
+//! frequencies at once, compiled for the baseline instruction set and, when
+//! the processor reports it, for 256-bit vectors, giving the same bits.
+
+use super::lane::{Complexes, Lane, Reals, LANES};
+use crate::stage::{Admittance, Frequency, SmallSignal, Stage, StageValues, Transfer};
+
+/// One step of the backward pass: solve `values` driving `load`, hand its
+/// input admittance back as the next load, and multiply its transfer onto
+/// `total` from the right. Returns whether the stage's own transfer is
+/// usable (always true for lanes; see [`Lane::usable_denominator`]).
+#[inline(always)]
+pub(crate) fn step<N: Lane>(
+    values: &StageValues,
+    w: &Frequency<N>,
+    load: &mut Admittance<N>,
+    total: &mut Option<Transfer<N>>,
+) -> bool {
+    let solved = values.solve(w, load);
+    *load = solved.input;
+    let usable = solved.transfer.usable();
+    *total = Some(match total {
+        Some(after) => after.after(&solved.transfer),
+        None => solved.transfer,
+    });
+    usable
+}
+
+/// The chain's transfer from its stages' values at `w`, last stage first.
+#[inline(always)]
+fn chain_transfer<N: Lane>(stages: &[StageValues], w: &Frequency<N>) -> Transfer<N> {
+    let mut load = Admittance::open();
+    let mut total = None;
+    for values in stages.iter().rev() {
+        step(values, w, &mut load, &mut total);
+    }
+    total.unwrap_or_else(Transfer::identity)
+}
+
+/// The range of |Adc|² and |Add|² (numerators, so scaled by the product of
+/// every denominator) within which their ratio keeps full precision;
+/// outside it the lane is marked for the single-point solve, which divides
+/// stage by stage.
+const SQUARED_RANGE: (f64, f64) = (1e-280, 1e280);
+
+/// |ε|² of the chain at the frequencies `f`, from the numerators alone;
+/// NaN in a lane whose numerators left [`SQUARED_RANGE`].
+#[inline(always)]
+fn conversion_squared(stages: &[StageValues], f: Reals) -> Reals {
+    let transfer: Transfer<Complexes> = chain_transfer(stages, &Frequency::new(f));
+    let (dc, dd) = transfer.conversion_parts();
+    let (dc2, dd2) = (dc.norm_sqr(), dd.norm_sqr());
+    let mut out = (dc2 / dd2).0;
+    let (low, high) = SQUARED_RANGE;
+    for (k, slot) in out.iter_mut().enumerate() {
+        let within = dd2.0[k] >= low && dd2.0[k] <= high && dc2.0[k] <= high;
+        if !within {
+            *slot = f64::NAN;
+        }
+    }
+    Reals(out)
+}
+
+/// The fast solve of a chain over many frequencies: the same stage solves
+/// as a single point, several frequencies per instruction.
+#[derive(Debug, Clone, Copy)]
+pub struct ChainKernel {
+    /// Whether the processor runs the 256-bit build.
+    wide: bool,
+}
+
+impl Default for ChainKernel {
+    fn default() -> ChainKernel {
+        ChainKernel::new()
+    }
+}
+
+impl ChainKernel {
+    /// The kernel for this processor.
+    pub fn new() -> ChainKernel {
+        ChainKernel {
+            wide: wide_vectors_available(),
+        }
+    }
+
+    /// The baseline build, whatever the processor (for tests comparing the
+    /// two builds).
+    pub fn baseline() -> ChainKernel {
+        ChainKernel { wide: false }
+    }
+
+    /// Every stage's frequency-independent values for one set of parameter
+    /// values, into `into` (its allocation reused).
+    pub fn prepare(&self, chain: &[Stage], values: &[f64], into: &mut Vec<StageValues>) {
+        into.clear();
+        into.extend(chain.iter().map(|stage| stage.kind.values(values)));
+    }
+
+    /// |ε|² at each of `frequencies` (Hz) for prepared stages, into `out`
+    /// (the same length). A value that is not finite marks a frequency
+    /// where the chain has no usable solution; the single-point solve
+    /// ([`super::chain_response`]) says why.
+    #[allow(unsafe_code)] // the one call into the AVX2 build, below
+    pub fn conversions_squared(
+        &self,
+        stages: &[StageValues],
+        frequencies: &[f64],
+        out: &mut [f64],
+    ) {
+        assert_eq!(frequencies.len(), out.len(), "one result per frequency");
+        #[cfg(target_arch = "x86_64")]
+        if self.wide {
+            // SAFETY: `wide` is set only when the running processor reports
+            // AVX2 (see `wide_vectors_available`).
+            unsafe { conversions_squared_avx2(stages, frequencies, out) };
+            return;
+        }
+        each_block(stages, frequencies, out);
+    }
+}
+
+/// Whether this processor can run the 256-bit build of the kernel.
+fn wide_vectors_available() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
+
+/// The kernel compiled for 256-bit vectors.
+///
+/// # Safety
+/// The processor must support AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+#[allow(unsafe_code)]
+unsafe fn conversions_squared_avx2(stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) {
+    each_block(stages, frequencies, out);
+}
+
+/// The kernel over `frequencies` in blocks of [`LANES`]; a short last block
+/// repeats its last frequency in the unused lanes.
+#[inline(always)]
+fn each_block(stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) {
+    let mut f_blocks = frequencies.chunks_exact(LANES);
+    let mut out_blocks = out.chunks_exact_mut(LANES);
+    for (f_block, out_block) in (&mut f_blocks).zip(&mut out_blocks) {
+        let lanes: [f64; LANES] = f_block.try_into().expect("a whole block");
+        let result = conversion_squared(stages, Reals(lanes));
+        out_block.copy_from_slice(&result.0);
+    }
+    let (f_rest, out_rest) = (f_blocks.remainder(), out_blocks.into_remainder());
+    if let Some(&last) = f_rest.last() {
+        let mut lanes = [last; LANES];
+        for (lane, &f) in lanes.iter_mut().zip(f_rest) {
+            *lane = f;
+        }
+        let result = conversion_squared(stages, Reals(lanes));
+        for (slot, value) in out_rest.iter_mut().zip(result.0) {
+            *slot = value;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::budget::load_budget;
+    use crate::montecarlo::{Sampler, SplitMix64};
+
+    /// The 256-bit build and the baseline build of the kernel give the same
+    /// bits: each lane runs the same IEEE operations in the same order. So
+    /// does a frequency alone and in a block.
+    #[test]
+    fn wide_and_baseline_builds_agree_to_the_bit() {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("budgets");
+        let frequencies: Vec<f64> = (0..23).map(|i| 10f64.powf(i as f64 * 0.3)).collect();
+        let mut checked = 0;
+        for entry in std::fs::read_dir(&root).unwrap() {
+            let path = entry.unwrap().path();
+            if path.extension().is_none_or(|e| e != "yaml") {
+                continue;
+            }
+            let budget = load_budget(&path).unwrap();
+            let kernel = ChainKernel::new();
+            let sampler = Sampler::new(&budget);
+            let mut values = budget.parameters.nominal_values();
+            let mut stages = Vec::new();
+            for trial in 0..20 {
+                sampler.fill(&mut values, &mut SplitMix64::for_trial(3, trial));
+                budget.parameters.resolve(&mut values, 0.0);
+                kernel.prepare(&budget.chain, &values, &mut stages);
+                let mut baseline = vec![0.0; frequencies.len()];
+                ChainKernel::baseline().conversions_squared(&stages, &frequencies, &mut baseline);
+                let mut chosen = vec![0.0; frequencies.len()];
+                kernel.conversions_squared(&stages, &frequencies, &mut chosen);
+                assert_eq!(baseline, chosen, "{}, trial {trial}", path.display());
+                for (index, &f) in frequencies.iter().enumerate() {
+                    let mut alone = [0.0];
+                    kernel.conversions_squared(&stages, &[f], &mut alone);
+                    assert_eq!(alone[0], baseline[index]);
+                }
+                checked += 1;
+            }
+        }
+        assert!(checked >= 140, "{checked} trials checked");
+    }
+}
