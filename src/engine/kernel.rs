@@ -26,9 +26,13 @@ pub(crate) fn step<N: Lane>(
     load: &mut Admittance<N>,
     total: &mut Option<Transfer<N>>,
 ) -> bool {
-    let solved = values.solve(w, load);
+    let mut solved = values.solve(w, load);
     *load = solved.input;
     let usable = solved.transfer.usable();
+    if !N::DENOMINATORS {
+        // Not needed: dropped here, so never computed.
+        solved.transfer.den = None;
+    }
     *total = Some(match total {
         Some(after) => after.after(&solved.transfer),
         None => solved.transfer,
@@ -47,24 +51,22 @@ fn chain_transfer<N: Lane>(stages: &[StageValues], w: &Frequency<N>) -> Transfer
     total.unwrap_or_else(Transfer::identity)
 }
 
-/// The range of |Adc|² and |Add|² (numerators, so scaled by the product of
-/// every denominator) within which their ratio keeps full precision;
-/// outside it the lane is marked for the single-point solve, which divides
-/// stage by stage.
-const SQUARED_RANGE: (f64, f64) = (1e-280, 1e280);
+/// The smallest |Add|² (a numerator, so scaled by the product of every
+/// denominator) whose ratio keeps full precision; below it the lane is
+/// marked for the single-point solve, which divides stage by stage. (An
+/// overflow shows as a result that is not finite, marked alike.)
+const SMALLEST_PART_SQUARED: f64 = 1e-280;
 
 /// |ε|² of the chain at the frequencies `f`, from the numerators alone;
-/// NaN in a lane whose numerators left [`SQUARED_RANGE`].
+/// NaN in a lane whose |Add|² fell below [`SMALLEST_PART_SQUARED`].
 #[inline(always)]
 fn conversion_squared(stages: &[StageValues], f: Reals) -> Reals {
     let transfer: Transfer<Complexes> = chain_transfer(stages, &Frequency::new(f));
     let (dc, dd) = transfer.conversion_parts();
-    let (dc2, dd2) = (dc.norm_sqr(), dd.norm_sqr());
-    let mut out = (dc2 / dd2).0;
-    let (low, high) = SQUARED_RANGE;
-    for (k, slot) in out.iter_mut().enumerate() {
-        let within = dd2.0[k] >= low && dd2.0[k] <= high && dc2.0[k] <= high;
-        if !within {
+    let dd2 = dd.norm_sqr();
+    let mut out = (dc.norm_sqr() / dd2).0;
+    for (slot, &part) in out.iter_mut().zip(&dd2.0) {
+        if part < SMALLEST_PART_SQUARED {
             *slot = f64::NAN;
         }
     }

@@ -52,6 +52,11 @@ pub trait Lane:
     /// Whether every part is finite (always true for lanes, as above).
     fn finite(self) -> bool;
 
+    /// Whether a composition of stages keeps their transfers'
+    /// denominators: at a single point, to divide them out; not for lanes,
+    /// whose conversion is a ratio in which they cancel.
+    const DENOMINATORS: bool;
+
     /// Zero.
     #[inline(always)]
     fn zero() -> Self {
@@ -67,6 +72,7 @@ pub trait Lane:
 
 impl Lane for C64 {
     type Real = f64;
+    const DENOMINATORS: bool = true;
 
     #[inline(always)]
     fn new(re: f64, im: f64) -> C64 {
@@ -109,6 +115,7 @@ impl Lane for C64 {
 
 impl Lane for Complexes {
     type Real = Reals;
+    const DENOMINATORS: bool = false;
 
     #[inline(always)]
     fn new(re: Reals, im: Reals) -> Complexes {

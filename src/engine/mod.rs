@@ -17,7 +17,7 @@ pub use contributions::{
     analyse_point, analyse_point_at, ranking_key, resolved, Contribution, PointAnalysis,
     RESOLUTION_FLOOR,
 };
-pub use corners::{worst_corner, CornerSearch, EXHAUSTIVE_LIMIT};
+pub use corners::{worst_corner, worst_corners, CornerSearch, EXHAUSTIVE_LIMIT};
 pub use headroom::{check_headroom, HeadroomFinding};
 pub use kernel::ChainKernel;
 pub use mixed_mode::MixedMode;

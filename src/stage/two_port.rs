@@ -169,6 +169,7 @@ impl<N: Lane> Transfer<N> {
 
     /// Whether the numerator's entries are finite and the denominator
     /// usable (see [`Lane::usable_denominator`]).
+    #[inline(always)]
     pub fn usable(&self) -> bool {
         let rows_finite = match &self.rows {
             Rows::Single(r) => r.iter().all(|z| z.finite()),

@@ -10,7 +10,7 @@ use super::{
     Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 use crate::engine::{
-    analyse_point_at, check_headroom, ranking_key, worst_corner, CornerSearch, EngineError,
+    analyse_point_at, check_headroom, ranking_key, worst_corners, CornerSearch, EngineError,
     PointAnalysis,
 };
 use crate::model::{Amplitude, Budget, Interference, Judgement, Presentation, Requirement};
@@ -77,12 +77,23 @@ struct Analysed {
     corner: CornerSearch,
 }
 
-impl Analysed {
-    fn new(budget: &Budget, freq_hz: f64, delta_t: f64) -> Result<Analysed, EngineError> {
-        let analysis = analyse_point_at(budget, freq_hz, delta_t)?;
-        let corner = worst_corner(budget, &analysis)?;
-        Ok(Analysed { analysis, corner })
-    }
+/// Every frequency of `frequencies` analysed `delta_t` from the reference,
+/// the worst corners searched together.
+fn analysed_at(
+    budget: &Budget,
+    frequencies: &[f64],
+    delta_t: f64,
+) -> Result<Vec<Analysed>, EngineError> {
+    let analyses = frequencies
+        .iter()
+        .map(|&freq| analyse_point_at(budget, freq, delta_t))
+        .collect::<Result<Vec<_>, _>>()?;
+    let corners = worst_corners(budget, &analyses.iter().collect::<Vec<_>>())?;
+    Ok(analyses
+        .into_iter()
+        .zip(corners)
+        .map(|(analysis, corner)| Analysed { analysis, corner })
+        .collect())
 }
 
 /// The analyses at one frequency: where the figures are shown, and the
@@ -96,20 +107,17 @@ struct Analyses {
 }
 
 impl Analyses {
-    fn new(
-        budget: &Budget,
-        freq_hz: f64,
-        operating: Operating,
+    /// From the analysis where the figures are shown (at `shown_k`, none
+    /// at the reference) and those at the ends of the range (each with its
+    /// kelvin), keeping the worse end.
+    fn assemble(
+        shown: Analysed,
+        shown_k: Option<f64>,
+        ends: Vec<(f64, Analysed)>,
         judgement: Judgement,
-    ) -> Result<Analyses, VerdictError> {
-        let (shown_dt, ends) = operating.excursions(budget)?;
-        let shown = Analysed::new(budget, freq_hz, shown_dt)?;
-        let shown_k = (shown_dt != 0.0)
-            .then(|| budget.temperature.map(|r| r.reference_k + shown_dt))
-            .flatten();
+    ) -> Analyses {
         let mut worse_end: Option<(f64, Analysed)> = None;
-        for (delta_t, kelvin) in ends {
-            let analysis = Analysed::new(budget, freq_hz, delta_t)?;
+        for (kelvin, analysis) in ends {
             let worse = worse_end.as_ref().is_none_or(|(_, w)| {
                 conversion_totals(&analysis).judged(judgement)
                     > conversion_totals(w).judged(judgement)
@@ -118,11 +126,11 @@ impl Analyses {
                 worse_end = Some((kelvin, analysis));
             }
         }
-        Ok(Analyses {
+        Analyses {
             shown,
             shown_k,
             worse_end,
-        })
+        }
     }
 
     /// The judged conversion and where it is worst: the worse of the
@@ -148,14 +156,47 @@ pub fn judge(budget: &Budget) -> Result<Report, VerdictError> {
 pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, VerdictError> {
     let requirement = budget.requirement.as_ref();
     let judgement = judged_on(requirement);
-    let mut cache: Vec<(f64, Analyses)> = Vec::new();
-    let mut analyses_at = |freq: f64| -> Result<Analyses, VerdictError> {
-        if let Some((_, found)) = cache.iter().find(|(f, _)| same_frequency(*f, freq)) {
-            return Ok(found.clone());
+    // Every frequency the budget names, once, in the order first named.
+    let mut named: Vec<f64> = Vec::new();
+    let sources = budget.interference.iter().map(|s| s.frequency_hz);
+    let checked = requirement
+        .into_iter()
+        .flat_map(|r| r.min_cmrr.iter().map(|m| m.frequency_hz));
+    for freq in sources
+        .chain(checked)
+        .chain(budget.extra_frequencies_hz.iter().copied())
+    {
+        if !named.iter().any(|&f| same_frequency(f, freq)) {
+            named.push(freq);
         }
-        let analyses = Analyses::new(budget, freq, operating, judgement)?;
-        cache.push((freq, analyses.clone()));
-        Ok(analyses)
+    }
+    let (shown_dt, ends) = operating.excursions(budget)?;
+    let shown_k = (shown_dt != 0.0)
+        .then(|| budget.temperature.map(|r| r.reference_k + shown_dt))
+        .flatten();
+    let shown = analysed_at(budget, &named, shown_dt)?;
+    let mut at_ends: Vec<(f64, std::vec::IntoIter<Analysed>)> = Vec::new();
+    for (delta_t, kelvin) in ends {
+        at_ends.push((kelvin, analysed_at(budget, &named, delta_t)?.into_iter()));
+    }
+    let cache: Vec<(f64, Analyses)> = named
+        .iter()
+        .zip(shown)
+        .map(|(&freq, shown)| {
+            let ends = at_ends
+                .iter_mut()
+                .map(|(kelvin, each)| (*kelvin, each.next().expect("one per frequency")))
+                .collect();
+            (freq, Analyses::assemble(shown, shown_k, ends, judgement))
+        })
+        .collect();
+    let analyses_at = |freq: f64| -> Result<Analyses, VerdictError> {
+        Ok(cache
+            .iter()
+            .find(|(f, _)| same_frequency(*f, freq))
+            .expect("every named frequency analysed")
+            .1
+            .clone())
     };
     let mut results = Vec::new();
     for source in &budget.interference {
