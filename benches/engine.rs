@@ -1,4 +1,7 @@
-//! Speed of the engine on the example budgets, measured with criterion.
+//! Speed of the engine on the example budgets, measured with criterion;
+//! targets and figures in DEVELOPERS.md ("Benchmarks"). The ratio to a
+//! vectorised numpy implementation of the same model is measured by
+//! `benches/numpy_reference.py`, by hand.
 //!
 //! `sweep_1000`: a sweep of about 1000 frequencies with every contributor
 //! over a three-stage chain (source network, three-op-amp in-amp,
@@ -26,40 +29,77 @@ fn sweep_1000(c: &mut Criterion) {
     });
 }
 
-/// `monte_carlo_100_frequencies`: 20,000 trials over a source network and a
-/// three-op-amp in-amp at 100 frequencies, histograms and checks included,
-/// counted in trial-frequency evaluations per second. Target: at least 5e7
-/// per second on 2 cores, aiming at 1e8. Enough trials that per-run costs
-/// (waking threads, growing and merging histograms) fade from a throughput.
-fn monte_carlo(c: &mut Criterion) {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("budgets/bridge-three-opamp.yaml");
-    let mut budget = load_budget(&path).expect("the example loads");
-    budget.chain.pop(); // source network and in-amp only
-    let frequencies: Vec<f64> = (0..100)
+/// 100 log-spaced frequencies, 1 Hz to 1 MHz.
+fn hundred_frequencies() -> Vec<f64> {
+    (0..100)
         .map(|i| 10f64.powf(i as f64 * 6.0 / 99.0))
-        .collect();
+        .collect()
+}
+
+/// One Monte Carlo run of `trials` trials at `frequencies`, histograms
+/// included, with no requirement checks.
+fn run(budget: &cmrr_budget::model::Budget, frequencies: &[f64], trials: u64) {
+    let options = YieldOptions {
+        trials,
+        seed: 1,
+        temperature: TemperatureMode::Reference,
+    };
+    run_yield(
+        black_box(budget),
+        frequencies,
+        &[],
+        options,
+        &|_| {},
+        &AtomicBool::new(false),
+    )
+    .expect("the run finishes");
+}
+
+/// `monte_carlo/<family>`: 20,000 trials at 100 frequencies through the
+/// Monte Carlo (values drawn and settled, every stage solved by the
+/// many-frequency kernel, histograms counted), on every core, counted in
+/// trial-frequency evaluations per second; one benchmark per chain family.
+/// `ratio_model` is the model `benches/numpy_reference.py` compares with
+/// numpy (its own 100 frequencies, 1 Hz to 100 kHz). Enough trials that
+/// per-run costs (waking threads, growing and merging histograms) fade
+/// from a throughput.
+fn monte_carlo(c: &mut Criterion) {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let load = |path: &str| load_budget(&root.join(path)).expect("the example loads");
     let trials = 20_000;
     let mut group = c.benchmark_group("monte_carlo");
-    group.throughput(Throughput::Elements(trials * frequencies.len() as u64));
     group.sample_size(10);
-    group.bench_function("three_opamp_with_source_100_frequencies", |b| {
-        b.iter(|| {
-            let options = YieldOptions {
-                trials,
-                seed: 1,
-                temperature: TemperatureMode::Reference,
-            };
-            run_yield(
-                black_box(&budget),
-                &frequencies,
-                &[],
-                options,
-                &|_| {},
-                &AtomicBool::new(false),
-            )
-            .expect("the run finishes")
-        })
+    let ratio = load("benches/ratio-model.yaml");
+    let ratio_frequencies = ratio.extra_frequencies_hz.clone();
+    assert_eq!(ratio_frequencies.len(), 100);
+    group.throughput(Throughput::Elements(trials * 100));
+    group.bench_function("ratio_model", |b| {
+        b.iter(|| run(&ratio, &ratio_frequencies, trials))
     });
+    let frequencies = hundred_frequencies();
+    let mut three_opamp = load("budgets/bridge-three-opamp.yaml");
+    three_opamp.chain.pop(); // source network and in-amp only
+    let mut pair_alone = load("budgets/bjt-pair-resistor-tail.yaml");
+    pair_alone.chain.pop(); // source network and pair only
+    let families = [
+        ("three_opamp_with_source", three_opamp),
+        (
+            "integrated_inamp_with_source_and_converter",
+            load("budgets/bridge-integrated-inamp.yaml"),
+        ),
+        (
+            "difference_amp_with_source",
+            load("budgets/motor-shunt.yaml"),
+        ),
+        ("pair_with_source", pair_alone),
+        (
+            "pair_then_difference_amp",
+            load("budgets/bjt-pair-current-source-tail.yaml"),
+        ),
+    ];
+    for (name, budget) in &families {
+        group.bench_function(*name, |b| b.iter(|| run(budget, &frequencies, trials)));
+    }
     group.finish();
 }
 

@@ -13,7 +13,10 @@
 //! the processor reports it, for 256-bit vectors, giving the same bits.
 
 use super::lane::{Complexes, Lane, Reals, LANES};
-use crate::stage::{Admittance, Frequency, SmallSignal, Stage, StageValues, Transfer};
+use crate::stage::{
+    AdcValues, Admittance, DifferenceValues, Frequency, IntegratedValues, Rows, SmallSignal,
+    SourceValues, Stage, StageValues, ThreeOpAmpValues, Transfer,
+};
 
 /// One step of the backward pass: solve `values` driving `load`, hand its
 /// input admittance back as the next load, and multiply its transfer onto
@@ -57,12 +60,11 @@ fn chain_transfer<N: Lane>(stages: &[StageValues], w: &Frequency<N>) -> Transfer
 /// overflow shows as a result that is not finite, marked alike.)
 const SMALLEST_PART_SQUARED: f64 = 1e-280;
 
-/// |ε|² of the chain at the frequencies `f`, from the numerators alone;
-/// NaN in a lane whose |Add|² fell below [`SMALLEST_PART_SQUARED`].
+/// |ε|² from the chain's numerator rows; NaN in a lane whose |Add|² fell
+/// below [`SMALLEST_PART_SQUARED`].
 #[inline(always)]
-fn conversion_squared(stages: &[StageValues], f: Reals) -> Reals {
-    let transfer: Transfer<Complexes> = chain_transfer(stages, &Frequency::new(f));
-    let (dc, dd) = transfer.conversion_parts();
+fn conversion_squared_of(rows: Rows<Complexes>) -> Reals {
+    let (dc, dd) = Transfer { rows, den: None }.conversion_parts();
     let dd2 = dd.norm_sqr();
     let mut out = (dc.norm_sqr() / dd2).0;
     for (slot, &part) in out.iter_mut().zip(&dd2.0) {
@@ -71,6 +73,121 @@ fn conversion_squared(stages: &[StageValues], f: Reals) -> Reals {
         }
     }
     Reals(out)
+}
+
+/// The first (last in the chain) stage of a composition: its input
+/// admittance and its transfer's numerator.
+#[inline(always)]
+fn last_stage<N: Lane, S: SmallSignal>(values: &S, w: &Frequency<N>) -> (Admittance<N>, Rows<N>) {
+    let solved = values.solve(w, &Admittance::open());
+    (solved.input, solved.transfer.rows)
+}
+
+/// The stage before: solved driving `load`, its numerator multiplied onto
+/// `total` from the right.
+#[inline(always)]
+fn earlier_stage<N: Lane, S: SmallSignal>(
+    values: &S,
+    w: &Frequency<N>,
+    (load, total): (Admittance<N>, Rows<N>),
+) -> (Admittance<N>, Rows<N>) {
+    let solved = values.solve(w, &load);
+    let rows = Transfer {
+        rows: total,
+        den: None,
+    }
+    .after(&Transfer {
+        rows: solved.transfer.rows,
+        den: None,
+    })
+    .rows;
+    (solved.input, rows)
+}
+
+/// The kernels for the chain shapes the budget format most often builds,
+/// each compiled on its own (for the baseline instruction set and for
+/// AVX2) with every stage's kind known to the compiler, so what passes
+/// from stage to stage stays in registers. `shaped` runs the one that
+/// fits `stages` and says whether one did; any other shape takes the
+/// general composition, the same solves chosen stage by stage.
+macro_rules! shaped_kernels {
+    ($( [$($variant:ident($x:ident: $ty:ty)),+] => [$last:ident $(, $earlier:ident)*] ),* $(,)?) => {
+        #[allow(unsafe_code)] // the calls into the AVX2 builds
+        fn shaped(wide: bool, stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) -> bool {
+            $(
+                if let [$(StageValues::$variant($x)),+] = stages {
+                    fn baseline($($x: &$ty,)+ frequencies: &[f64], out: &mut [f64]) {
+                        blocks(|w| {
+                            let state = last_stage($last, w);
+                            $(let state = earlier_stage($earlier, w, state);)*
+                            state.1
+                        }, frequencies, out);
+                    }
+                    #[cfg(target_arch = "x86_64")]
+                    #[target_feature(enable = "avx2")]
+                    unsafe fn wide_build($($x: &$ty,)+ frequencies: &[f64], out: &mut [f64]) {
+                        blocks(|w| {
+                            let state = last_stage($last, w);
+                            $(let state = earlier_stage($earlier, w, state);)*
+                            state.1
+                        }, frequencies, out);
+                    }
+                    #[cfg(target_arch = "x86_64")]
+                    if wide {
+                        // SAFETY: `wide` is set only when the processor
+                        // reports AVX2.
+                        unsafe { wide_build($($x,)+ frequencies, out) };
+                        return true;
+                    }
+                    let _ = wide;
+                    baseline($($x,)+ frequencies, out);
+                    return true;
+                }
+            )*
+            false
+        }
+    };
+}
+
+shaped_kernels! {
+    [DifferenceAmp(a: DifferenceValues)] => [a],
+    [ThreeOpAmpInAmp(a: ThreeOpAmpValues)] => [a],
+    [IntegratedInAmp(a: IntegratedValues)] => [a],
+    [SourceNetwork(s: SourceValues), DifferenceAmp(a: DifferenceValues)] => [a, s],
+    [SourceNetwork(s: SourceValues), ThreeOpAmpInAmp(a: ThreeOpAmpValues)] => [a, s],
+    [SourceNetwork(s: SourceValues), IntegratedInAmp(a: IntegratedValues)] => [a, s],
+    [SourceNetwork(s: SourceValues), DifferenceAmp(a: DifferenceValues), Adc(c: AdcValues)] => [c, a, s],
+    [SourceNetwork(s: SourceValues), ThreeOpAmpInAmp(a: ThreeOpAmpValues), Adc(c: AdcValues)] => [c, a, s],
+    [SourceNetwork(s: SourceValues), IntegratedInAmp(a: IntegratedValues), Adc(c: AdcValues)] => [c, a, s],
+}
+
+/// The kernel over `frequencies` in blocks of [`LANES`], `numerator`
+/// giving the chain's numerator rows at a block; a short last block
+/// repeats its last frequency in the unused lanes.
+#[inline(always)]
+fn blocks(
+    numerator: impl Fn(&Frequency<Complexes>) -> Rows<Complexes>,
+    frequencies: &[f64],
+    out: &mut [f64],
+) {
+    let solve =
+        |lanes: [f64; LANES]| conversion_squared_of(numerator(&Frequency::new(Reals(lanes))));
+    let mut f_blocks = frequencies.chunks_exact(LANES);
+    let mut out_blocks = out.chunks_exact_mut(LANES);
+    for (f_block, out_block) in (&mut f_blocks).zip(&mut out_blocks) {
+        let lanes: [f64; LANES] = f_block.try_into().expect("a whole block");
+        out_block.copy_from_slice(&solve(lanes).0);
+    }
+    let (f_rest, out_rest) = (f_blocks.remainder(), out_blocks.into_remainder());
+    if let Some(&last) = f_rest.last() {
+        let mut lanes = [last; LANES];
+        for (lane, &f) in lanes.iter_mut().zip(f_rest) {
+            *lane = f;
+        }
+        for (slot, value) in out_rest.iter_mut().zip(solve(lanes).0) {
+            *slot = value;
+        }
+    }
 }
 
 /// The fast solve of a chain over many frequencies: the same stage solves
@@ -120,6 +237,9 @@ impl ChainKernel {
         out: &mut [f64],
     ) {
         assert_eq!(frequencies.len(), out.len(), "one result per frequency");
+        if shaped(self.wide, stages, frequencies, out) {
+            return;
+        }
         #[cfg(target_arch = "x86_64")]
         if self.wide {
             // SAFETY: `wide` is set only when the running processor reports
@@ -154,28 +274,11 @@ unsafe fn conversions_squared_avx2(stages: &[StageValues], frequencies: &[f64], 
     each_block(stages, frequencies, out);
 }
 
-/// The kernel over `frequencies` in blocks of [`LANES`]; a short last block
-/// repeats its last frequency in the unused lanes.
+/// The general kernel over `frequencies`: the stages' solves chosen stage
+/// by stage.
 #[inline(always)]
 fn each_block(stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) {
-    let mut f_blocks = frequencies.chunks_exact(LANES);
-    let mut out_blocks = out.chunks_exact_mut(LANES);
-    for (f_block, out_block) in (&mut f_blocks).zip(&mut out_blocks) {
-        let lanes: [f64; LANES] = f_block.try_into().expect("a whole block");
-        let result = conversion_squared(stages, Reals(lanes));
-        out_block.copy_from_slice(&result.0);
-    }
-    let (f_rest, out_rest) = (f_blocks.remainder(), out_blocks.into_remainder());
-    if let Some(&last) = f_rest.last() {
-        let mut lanes = [last; LANES];
-        for (lane, &f) in lanes.iter_mut().zip(f_rest) {
-            *lane = f;
-        }
-        let result = conversion_squared(stages, Reals(lanes));
-        for (slot, value) in out_rest.iter_mut().zip(result.0) {
-            *slot = value;
-        }
-    }
+    blocks(|w| chain_transfer(stages, w).rows, frequencies, out);
 }
 
 #[cfg(test)]
