@@ -116,21 +116,19 @@ macro_rules! shaped_kernels {
         fn shaped(wide: bool, stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) -> bool {
             $(
                 if let [$(StageValues::$variant($x)),+] = stages {
+                    #[inline(always)]
+                    fn numerator($($x: &$ty,)+ w: &Frequency<Complexes>) -> Rows<Complexes> {
+                        let state = last_stage($last, w);
+                        $(let state = earlier_stage($earlier, w, state);)*
+                        state.1
+                    }
                     fn baseline($($x: &$ty,)+ frequencies: &[f64], out: &mut [f64]) {
-                        blocks(|w| {
-                            let state = last_stage($last, w);
-                            $(let state = earlier_stage($earlier, w, state);)*
-                            state.1
-                        }, frequencies, out);
+                        blocks(|w| numerator($($x,)+ w), frequencies, out);
                     }
                     #[cfg(target_arch = "x86_64")]
                     #[target_feature(enable = "avx2")]
                     unsafe fn wide_build($($x: &$ty,)+ frequencies: &[f64], out: &mut [f64]) {
-                        blocks(|w| {
-                            let state = last_stage($last, w);
-                            $(let state = earlier_stage($earlier, w, state);)*
-                            state.1
-                        }, frequencies, out);
+                        blocks(|w| numerator($($x,)+ w), frequencies, out);
                     }
                     #[cfg(target_arch = "x86_64")]
                     if wide {

@@ -8,6 +8,7 @@
 //! error in codes. Its own conversion is referred to the sensor through the
 //! gain ahead of it, like any later stage's.
 
+use super::two_port::rejecting_row;
 use super::{
     Admittance, Frequency, Lane, PinShunt, PinValues, Rows, SmallSignal, Solved, StageSolve,
     Transfer,
@@ -62,11 +63,10 @@ impl SmallSignal for AdcValues {
     /// `(1 + c/2) v_p − (1 − c/2) v_n`, `c = c0 + j f c0/fc`.
     #[inline(always)]
     fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
-        let half_c = N::with_imaginary(self.c0, w.hz * self.c0_per_corner) * 0.5;
         Solved {
             input: PinValues::admittance(&self.pins, w),
             transfer: Transfer {
-                rows: Rows::Single([N::one() + half_c, -(N::one() - half_c)]),
+                rows: Rows::Single(rejecting_row(self.c0, self.c0_per_corner, w)),
                 den: None,
             },
         }

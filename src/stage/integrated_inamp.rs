@@ -10,6 +10,7 @@
 //! resistance and capacitance to ground, which load the source network.
 //! The output is single-ended against the reference (ground).
 
+use super::two_port::rejecting_row;
 use super::{
     Admittance, Frequency, Lane, PinShunt, PinValues, Point, Probe, Rows, SmallSignal, Solved,
     StageSolve, Transfer, VoltageRange,
@@ -120,14 +121,11 @@ impl SmallSignal for IntegratedValues {
     /// kept as the denominator.
     #[inline(always)]
     fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
-        let half_c = N::with_imaginary(self.c0, w.hz * self.c0_per_corner) * 0.5;
+        let [p, n] = rejecting_row(self.c0, self.c0_per_corner, w);
         Solved {
             input: PinValues::admittance(&self.pins, w),
             transfer: Transfer {
-                rows: Rows::Single([
-                    (N::one() + half_c) * self.gain,
-                    -((N::one() - half_c) * self.gain),
-                ]),
+                rows: Rows::Single([p * self.gain, n * self.gain]),
                 den: self
                     .inverse_bandwidth
                     .map(|inverse| N::with_imaginary(1.0, w.hz * inverse)),

@@ -200,6 +200,15 @@ impl Transfer<C64> {
     }
 }
 
+/// The row of a differential input that converts its common mode:
+/// `(1 + c/2) v_p − (1 − c/2) v_n` with `c = c0 + j f c0/fc` (the signed
+/// reciprocal of the CMRR, rising above the corner).
+#[inline(always)]
+pub fn rejecting_row<N: Lane>(c0: f64, c0_per_corner: f64, w: &Frequency<N>) -> [N; 2] {
+    let half_c = N::with_imaginary(c0, w.hz * c0_per_corner) * 0.5;
+    [N::one() + half_c, -(N::one() - half_c)]
+}
+
 /// One stage's solve at one frequency: what its inputs draw and what it
 /// passes on, given what it drives.
 #[derive(Debug, Clone, Copy)]
