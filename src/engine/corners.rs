@@ -140,15 +140,14 @@ fn exhaustive(budget: &Budget, group: &[&PointAnalysis]) -> Result<Vec<CornerSea
             let gray = k ^ (k >> 1);
             corner_values(&base, contributions, gray, &mut values);
             settle(budget, &mut values, delta_t)?;
-            kernel.prepare(&budget.chain, &values, &mut stages);
-            kernel.conversions_squared(&stages, &frequencies, &mut squared);
-            for ((slot, best), &freq) in squared.iter_mut().zip(&mut bests).zip(&frequencies) {
-                if !slot.is_finite() {
-                    // The single-point solve says why, or answers.
-                    *slot = chain_response(&budget.chain, &Point::new(freq, &values))?
-                        .conversion()
-                        .norm_sqr();
-                }
+            kernel.solve(
+                &budget.chain,
+                &values,
+                &mut stages,
+                &frequencies,
+                &mut squared,
+            )?;
+            for (slot, best) in squared.iter().zip(&mut bests) {
                 // Ties to rounding (a circuit symmetric under flipping
                 // every sign) go to the first corner in Gray-code order.
                 if ranking_key(*slot) > ranking_key(best.0) {

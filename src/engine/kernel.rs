@@ -12,16 +12,36 @@
 //! frequencies at once, compiled for the baseline instruction set and, when
 //! the processor reports it, for 256-bit vectors, giving the same bits.
 
+use super::chain::{chain_response, EngineError};
 use super::lane::{Complexes, Lane, Reals, LANES};
 use crate::stage::{
-    AdcValues, Admittance, DifferenceValues, Frequency, IntegratedValues, Rows, SmallSignal,
+    AdcValues, Admittance, DifferenceValues, Frequency, IntegratedValues, Point, SmallSignal,
     SourceValues, Stage, StageValues, ThreeOpAmpValues, Transfer,
 };
+
+/// One stage of the backward pass: `values` solved driving `load`,
+/// giving the next load (its input admittance) and its transfer, and
+/// whether that transfer is usable (always true for lanes; see
+/// [`Lane::usable_denominator`]). Lanes drop the denominator here, so it
+/// is never computed.
+#[inline(always)]
+fn solved<N: Lane, S: SmallSignal>(
+    values: &S,
+    w: &Frequency<N>,
+    load: &Admittance<N>,
+) -> (Admittance<N>, Transfer<N>, bool) {
+    let mut solved = values.solve(w, load);
+    let usable = solved.transfer.usable();
+    if !N::DENOMINATORS {
+        solved.transfer.den = None;
+    }
+    (solved.input, solved.transfer, usable)
+}
 
 /// One step of the backward pass: solve `values` driving `load`, hand its
 /// input admittance back as the next load, and multiply its transfer onto
 /// `total` from the right. Returns whether the stage's own transfer is
-/// usable (always true for lanes; see [`Lane::usable_denominator`]).
+/// usable.
 #[inline(always)]
 pub(crate) fn step<N: Lane>(
     values: &StageValues,
@@ -29,16 +49,11 @@ pub(crate) fn step<N: Lane>(
     load: &mut Admittance<N>,
     total: &mut Option<Transfer<N>>,
 ) -> bool {
-    let mut solved = values.solve(w, load);
-    *load = solved.input;
-    let usable = solved.transfer.usable();
-    if !N::DENOMINATORS {
-        // Not needed: dropped here, so never computed.
-        solved.transfer.den = None;
-    }
+    let (input, transfer, usable) = solved(values, w, load);
+    *load = input;
     *total = Some(match total {
-        Some(after) => after.after(&solved.transfer),
-        None => solved.transfer,
+        Some(after) => after.after(&transfer),
+        None => transfer,
     });
     usable
 }
@@ -60,11 +75,11 @@ fn chain_transfer<N: Lane>(stages: &[StageValues], w: &Frequency<N>) -> Transfer
 /// overflow shows as a result that is not finite, marked alike.)
 const SMALLEST_PART_SQUARED: f64 = 1e-280;
 
-/// |ε|² from the chain's numerator rows; NaN in a lane whose |Add|² fell
-/// below [`SMALLEST_PART_SQUARED`].
+/// |ε|² from the chain's transfer numerator; NaN in a lane whose |Add|²
+/// fell below [`SMALLEST_PART_SQUARED`].
 #[inline(always)]
-fn conversion_squared_of(rows: Rows<Complexes>) -> Reals {
-    let (dc, dd) = Transfer { rows, den: None }.conversion_parts();
+fn conversion_squared_of(transfer: Transfer<Complexes>) -> Reals {
+    let (dc, dd) = transfer.conversion_parts();
     let dd2 = dd.norm_sqr();
     let mut out = (dc.norm_sqr() / dd2).0;
     for (slot, &part) in out.iter_mut().zip(&dd2.0) {
@@ -76,32 +91,26 @@ fn conversion_squared_of(rows: Rows<Complexes>) -> Reals {
 }
 
 /// The first (last in the chain) stage of a composition: its input
-/// admittance and its transfer's numerator.
+/// admittance and its transfer.
 #[inline(always)]
-fn last_stage<N: Lane, S: SmallSignal>(values: &S, w: &Frequency<N>) -> (Admittance<N>, Rows<N>) {
-    let solved = values.solve(w, &Admittance::open());
-    (solved.input, solved.transfer.rows)
+fn last_stage<N: Lane, S: SmallSignal>(
+    values: &S,
+    w: &Frequency<N>,
+) -> (Admittance<N>, Transfer<N>) {
+    let (input, transfer, _) = solved(values, w, &Admittance::open());
+    (input, transfer)
 }
 
-/// The stage before: solved driving `load`, its numerator multiplied onto
+/// The stage before: solved driving `load`, its transfer multiplied onto
 /// `total` from the right.
 #[inline(always)]
 fn earlier_stage<N: Lane, S: SmallSignal>(
     values: &S,
     w: &Frequency<N>,
-    (load, total): (Admittance<N>, Rows<N>),
-) -> (Admittance<N>, Rows<N>) {
-    let solved = values.solve(w, &load);
-    let rows = Transfer {
-        rows: total,
-        den: None,
-    }
-    .after(&Transfer {
-        rows: solved.transfer.rows,
-        den: None,
-    })
-    .rows;
-    (solved.input, rows)
+    (load, total): (Admittance<N>, Transfer<N>),
+) -> (Admittance<N>, Transfer<N>) {
+    let (input, transfer, _) = solved(values, w, &load);
+    (input, total.after(&transfer))
 }
 
 /// The kernels for the chain shapes the budget format most often builds,
@@ -117,7 +126,7 @@ macro_rules! shaped_kernels {
             $(
                 if let [$(StageValues::$variant($x)),+] = stages {
                     #[inline(always)]
-                    fn numerator($($x: &$ty,)+ w: &Frequency<Complexes>) -> Rows<Complexes> {
+                    fn numerator($($x: &$ty,)+ w: &Frequency<Complexes>) -> Transfer<Complexes> {
                         let state = last_stage($last, w);
                         $(let state = earlier_stage($earlier, w, state);)*
                         state.1
@@ -160,11 +169,11 @@ shaped_kernels! {
 }
 
 /// The kernel over `frequencies` in blocks of [`LANES`], `numerator`
-/// giving the chain's numerator rows at a block; a short last block
+/// giving the chain's transfer numerator at a block; a short last block
 /// repeats its last frequency in the unused lanes.
 #[inline(always)]
 fn blocks(
-    numerator: impl Fn(&Frequency<Complexes>) -> Rows<Complexes>,
+    numerator: impl Fn(&Frequency<Complexes>) -> Transfer<Complexes>,
     frequencies: &[f64],
     out: &mut [f64],
 ) {
@@ -223,6 +232,31 @@ impl ChainKernel {
         into.extend(chain.iter().map(|stage| stage.kind.values(values)));
     }
 
+    /// |ε|² of `chain` at each of `frequencies` (Hz) for settled `values`,
+    /// into `out`: the stages prepared into `stages` (its allocation
+    /// reused) and solved by the kernel; where the kernel has no finite
+    /// answer, the single-point solve of the same equations says why (or,
+    /// out of the kernel's range, answers).
+    pub fn solve(
+        &self,
+        chain: &[Stage],
+        values: &[f64],
+        stages: &mut Vec<StageValues>,
+        frequencies: &[f64],
+        out: &mut [f64],
+    ) -> Result<(), EngineError> {
+        self.prepare(chain, values, stages);
+        self.conversions_squared(stages, frequencies, out);
+        for (slot, &freq) in out.iter_mut().zip(frequencies) {
+            if !slot.is_finite() {
+                *slot = chain_response(chain, &Point::new(freq, values))?
+                    .conversion()
+                    .norm_sqr();
+            }
+        }
+        Ok(())
+    }
+
     /// |ε|² at each of `frequencies` (Hz) for prepared stages, into `out`
     /// (the same length). A value that is not finite marks a frequency
     /// where the chain has no usable solution; the single-point solve
@@ -276,7 +310,7 @@ unsafe fn conversions_squared_avx2(stages: &[StageValues], frequencies: &[f64], 
 /// by stage.
 #[inline(always)]
 fn each_block(stages: &[StageValues], frequencies: &[f64], out: &mut [f64]) {
-    blocks(|w| chain_transfer(stages, w).rows, frequencies, out);
+    blocks(|w| chain_transfer(stages, w), frequencies, out);
 }
 
 #[cfg(test)]

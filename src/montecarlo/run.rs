@@ -4,9 +4,9 @@
 
 use super::stats::{squared_of_cmrr_db, SMALLEST_SQUARED};
 use super::{CmrrHistogram, Sampler, SplitMix64};
-use crate::engine::{chain_response, settle, ChainKernel, EngineError};
+use crate::engine::{settle, ChainKernel, EngineError};
 use crate::model::Budget;
-use crate::stage::{Point, StageValues};
+use crate::stage::StageValues;
 use rayon::prelude::*;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::Mutex;
@@ -248,20 +248,13 @@ impl TrialSolver<'_> {
             _ => 0.0,
         };
         settle(self.budget, values, delta_t)?;
-        self.kernel
-            .prepare(&self.budget.chain, values, &mut workspace.stages);
-        self.kernel
-            .conversions_squared(&workspace.stages, self.frequencies, squared);
-        // Where the kernel has no finite answer, the single-point solve of
-        // the same equations says why (or, out of the kernel's range,
-        // answers).
-        for (slot, &freq) in squared.iter_mut().zip(self.frequencies) {
-            if !slot.is_finite() {
-                let response = chain_response(&self.budget.chain, &Point::new(freq, values))?;
-                *slot = response.conversion().norm_sqr();
-            }
-        }
-        Ok(())
+        self.kernel.solve(
+            &self.budget.chain,
+            values,
+            &mut workspace.stages,
+            self.frequencies,
+            squared,
+        )
     }
 }
 

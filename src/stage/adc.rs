@@ -8,7 +8,7 @@
 //! error in codes. Its own conversion is referred to the sensor through the
 //! gain ahead of it, like any later stage's.
 
-use super::two_port::rejecting_row;
+use super::two_port::Rejection;
 use super::{
     Admittance, Frequency, Lane, PinShunt, PinValues, Rows, SmallSignal, Solved, StageSolve,
     Transfer,
@@ -42,10 +42,8 @@ impl StageSolve for Adc {
     const NAME: &'static str = "converter";
 
     fn values(&self, v: &[f64]) -> AdcValues {
-        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
         AdcValues {
-            c0,
-            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+            rejection: Rejection::of(self.cmrr_reciprocal, self.cmrr_corner_hz, v),
             pins: PinShunt::values(&self.pins, v),
         }
     }
@@ -54,8 +52,7 @@ impl StageSolve for Adc {
 /// A converter's frequency-independent values.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct AdcValues {
-    c0: f64,
-    c0_per_corner: f64,
+    rejection: Rejection,
     pins: [PinValues; 2],
 }
 
@@ -66,7 +63,7 @@ impl SmallSignal for AdcValues {
         Solved {
             input: PinValues::admittance(&self.pins, w),
             transfer: Transfer {
-                rows: Rows::Single(rejecting_row(self.c0, self.c0_per_corner, w)),
+                rows: Rows::Single(self.rejection.row(w)),
                 den: None,
             },
         }

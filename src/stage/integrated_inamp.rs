@@ -10,7 +10,7 @@
 //! resistance and capacitance to ground, which load the source network.
 //! The output is single-ended against the reference (ground).
 
-use super::two_port::rejecting_row;
+use super::two_port::Rejection;
 use super::{
     Admittance, Frequency, Lane, PinShunt, PinValues, Point, Probe, Rows, SmallSignal, Solved,
     StageSolve, Transfer, VoltageRange,
@@ -79,11 +79,9 @@ impl StageSolve for IntegratedInAmp {
     const NAME: &'static str = "integrated instrumentation amplifier";
 
     fn values(&self, v: &[f64]) -> IntegratedValues {
-        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
         IntegratedValues {
             gain: self.gain.gain(&Point::new(0.0, v)),
-            c0,
-            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+            rejection: Rejection::of(self.cmrr_reciprocal, self.cmrr_corner_hz, v),
             inverse_bandwidth: self.bandwidth_hz.map(|id| 1.0 / v[id.0]),
             pins: PinShunt::values(&self.pins, v),
         }
@@ -110,8 +108,7 @@ impl StageSolve for IntegratedInAmp {
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct IntegratedValues {
     gain: f64,
-    c0: f64,
-    c0_per_corner: f64,
+    rejection: Rejection,
     inverse_bandwidth: Option<f64>,
     pins: [PinValues; 2],
 }
@@ -121,7 +118,7 @@ impl SmallSignal for IntegratedValues {
     /// kept as the denominator.
     #[inline(always)]
     fn solve<N: Lane>(&self, w: &Frequency<N>, _load: &Admittance<N>) -> Solved<N> {
-        let [p, n] = rejecting_row(self.c0, self.c0_per_corner, w);
+        let [p, n] = self.rejection.row(w);
         Solved {
             input: PinValues::admittance(&self.pins, w),
             transfer: Transfer {

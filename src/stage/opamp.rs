@@ -10,6 +10,7 @@
 //! the input common mode. The output is an ideal voltage source and the
 //! inputs draw no current.
 
+use super::two_port::Rejection;
 use super::{Frequency, Lane, VoltageRange};
 use crate::model::ParamId;
 
@@ -38,24 +39,21 @@ pub struct OpAmp {
 impl OpAmp {
     /// Its frequency-independent values for one set of parameter values.
     pub fn values(&self, v: &[f64]) -> OpAmpValues {
-        let c0 = self.cmrr_reciprocal.map_or(0.0, |id| v[id.0]);
         OpAmpValues {
             inverse_a0: self.open_loop_gain.map_or(0.0, |id| 1.0 / v[id.0]),
             inverse_gbw: self.gain_bandwidth_hz.map_or(0.0, |id| 1.0 / v[id.0]),
-            c0,
-            c0_per_corner: self.cmrr_corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+            rejection: Rejection::of(self.cmrr_reciprocal, self.cmrr_corner_hz, v),
         }
     }
 }
 
-/// An op-amp's frequency-independent values: `1/A0`, `1/GBW`, `c0` and
-/// `c0/fc` (zero where the amplifier is ideal in that respect).
+/// An op-amp's frequency-independent values: `1/A0`, `1/GBW` (zero where
+/// ideal) and its rejection.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct OpAmpValues {
     inverse_a0: f64,
     inverse_gbw: f64,
-    c0: f64,
-    c0_per_corner: f64,
+    rejection: Rejection,
 }
 
 impl OpAmpValues {
@@ -64,7 +62,7 @@ impl OpAmpValues {
     pub fn at<N: Lane>(&self, w: &Frequency<N>) -> (N, N) {
         (
             N::with_imaginary(self.inverse_a0, w.hz * self.inverse_gbw),
-            N::with_imaginary(self.c0, w.hz * self.c0_per_corner),
+            self.rejection.at(w),
         )
     }
 }

@@ -12,6 +12,7 @@
 
 use super::{Lane, SingularStage};
 use crate::engine::linalg::{Mat2, C64};
+use crate::model::ParamId;
 
 /// The frequency of a solve, in hertz and as `ω = 2π f`, one value or one
 /// per lane.
@@ -200,13 +201,38 @@ impl Transfer<C64> {
     }
 }
 
-/// The row of a differential input that converts its common mode:
-/// `(1 + c/2) v_p − (1 − c/2) v_n` with `c = c0 + j f c0/fc` (the signed
-/// reciprocal of the CMRR, rising above the corner).
-#[inline(always)]
-pub fn rejecting_row<N: Lane>(c0: f64, c0_per_corner: f64, w: &Frequency<N>) -> [N; 2] {
-    let half_c = N::with_imaginary(c0, w.hz * c0_per_corner) * 0.5;
-    [N::one() + half_c, -(N::one() - half_c)]
+/// A common-mode rejection of unknown sign that falls above a corner, as
+/// values: `1/CMRR(jf) = c0 (1 + j f/fc)`, kept as `c0` and `c0/fc` (zero
+/// where ideal: no CMRR given, or no corner).
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Rejection {
+    c0: f64,
+    c0_per_corner: f64,
+}
+
+impl Rejection {
+    /// From the signed reciprocal of the DC CMRR and the corner, Hz.
+    pub fn of(reciprocal: Option<ParamId>, corner_hz: Option<ParamId>, v: &[f64]) -> Rejection {
+        let c0 = reciprocal.map_or(0.0, |id| v[id.0]);
+        Rejection {
+            c0,
+            c0_per_corner: corner_hz.map_or(0.0, |id| c0 / v[id.0]),
+        }
+    }
+
+    /// `c = 1/CMRR(jf) = c0 + j f c0/fc`.
+    #[inline(always)]
+    pub fn at<N: Lane>(&self, w: &Frequency<N>) -> N {
+        N::with_imaginary(self.c0, w.hz * self.c0_per_corner)
+    }
+
+    /// The row of a differential input that converts its common mode by
+    /// it: `(1 + c/2) v_p − (1 − c/2) v_n`.
+    #[inline(always)]
+    pub fn row<N: Lane>(&self, w: &Frequency<N>) -> [N; 2] {
+        let half_c = self.at(w) * 0.5;
+        [N::one() + half_c, -(N::one() - half_c)]
+    }
 }
 
 /// One stage's solve at one frequency: what its inputs draw and what it

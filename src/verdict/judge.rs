@@ -190,18 +190,17 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
             (freq, Analyses::assemble(shown, shown_k, ends, judgement))
         })
         .collect();
-    let analyses_at = |freq: f64| -> Result<Analyses, VerdictError> {
-        Ok(cache
+    let analyses_at = |freq: f64| -> &Analyses {
+        &cache
             .iter()
             .find(|(f, _)| same_frequency(*f, freq))
             .expect("every named frequency analysed")
             .1
-            .clone())
     };
     let mut results = Vec::new();
     for source in &budget.interference {
-        let analyses = analyses_at(source.frequency_hz)?;
-        results.push(source_result(budget, source, &analyses, requirement));
+        let analyses = analyses_at(source.frequency_hz);
+        results.push(source_result(budget, source, analyses, requirement));
     }
     let mut extra: Vec<f64> = requirement
         .map(|r| r.min_cmrr.iter().map(|m| m.frequency_hz).collect())
@@ -219,8 +218,8 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
         if covered {
             continue;
         }
-        let analyses = analyses_at(freq)?;
-        frequencies.push(frequency_result(budget, &analyses, requirement));
+        let analyses = analyses_at(freq);
+        frequencies.push(frequency_result(budget, analyses, requirement));
     }
     frequencies.sort_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz));
     let headroom = check_headroom(budget)?;
