@@ -14,4 +14,5 @@ pub mod quantity;
 pub mod report;
 pub mod stage;
 pub mod sweep;
+pub mod switching;
 pub mod verdict;

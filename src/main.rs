@@ -15,6 +15,7 @@ use cmrr_budget::plot::{plot_histogram, plot_overlay, OverlaySeries, PlotError};
 use cmrr_budget::quantity::{format_si, parse_quantity, Dimension};
 use cmrr_budget::report::compare::build_compare_report;
 use cmrr_budget::report::design::{improve_report, sizing_report, trim_report};
+use cmrr_budget::report::residue::{build_residue_report, render_residue_svg};
 use cmrr_budget::report::sweep::{build_sweep_report, render_sweep_chart, render_sweep_svg};
 use cmrr_budget::report::yield_report::histogram_points;
 use cmrr_budget::report::{Db, Render, Report};
@@ -22,7 +23,7 @@ use cmrr_budget::sweep::{
     run_sweep, run_sweep_at, SweepFailure, SweepSpec, DEFAULT_FROM_HZ, DEFAULT_PER_DECADE,
     DEFAULT_TO_HZ,
 };
-use cmrr_budget::verdict::{judge, judge_with, Operating, VerdictError};
+use cmrr_budget::verdict::{judge, judge_in_full, judge_with, Operating, VerdictError};
 use std::io::{self, IsTerminal, Write};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -206,6 +207,29 @@ enum Command {
         method: TrimMethodArg,
         #[command(flatten)]
         output: OutputArgs,
+    },
+    /// The residue a switching common mode leaves over one period: its
+    /// peak and rms, how long after each edge it settles into the allowed
+    /// error, what a sampling window reads; the waveforms as CSV or JSON,
+    /// and a plot.
+    Residue {
+        /// The budget file (YAML), or `-` for standard input.
+        file: PathBuf,
+        /// Only the switching source of this name (default: every one).
+        #[arg(long, value_name = "NAME")]
+        source: Option<String>,
+        /// Where the temperature sits: over the range (default: the
+        /// reference and the worse end), or at the reference, cold or hot
+        /// end only.
+        #[arg(long, value_enum)]
+        temperature: Option<SweepTemperature>,
+        #[command(flatten)]
+        output: OutputArgs,
+        /// Also draw the common mode and the residue against time as an
+        /// SVG plot in this file (one source: name it with `--source` when
+        /// the budget has several).
+        #[arg(long, value_name = "FILE.svg")]
+        plot: Option<PathBuf>,
     },
     /// Put several designs side by side: each interference source's CMRR,
     /// error, margin and dominant contributor per design.
@@ -460,6 +484,19 @@ fn run(cli: Cli) -> Result<u8, CliError> {
             Ok(MET)
         }
         Command::Budget { file, output } => budget(&file, &output),
+        Command::Residue {
+            file,
+            source,
+            temperature,
+            output,
+            plot,
+        } => residue(
+            &file,
+            source.as_deref(),
+            temperature,
+            &output,
+            plot.as_deref(),
+        ),
         Command::Sweep {
             file,
             range,
@@ -850,6 +887,60 @@ fn budget(file: &Path, output: &OutputArgs) -> Result<u8, CliError> {
     let report = judge(&budget).map_err(in_file(file))?;
     output.emit_report(&report, &report.cautions)?;
     Ok(exit_status(&report))
+}
+
+fn residue(
+    file: &Path,
+    source: Option<&str>,
+    temperature: Option<SweepTemperature>,
+    output: &OutputArgs,
+    plot: Option<&Path>,
+) -> Result<u8, CliError> {
+    output.check_paths(&[file], plot)?;
+    let budget = load(file)?;
+    if budget.switching.is_empty() {
+        return Err(CliError::Option {
+            option: "residue",
+            problem: format!(
+                "{} names no switching source; add one under `switching:` (see the README, \"Switching edges\")",
+                file.display()
+            ),
+        });
+    }
+    if let Some(name) = source {
+        if !budget.switching.iter().any(|s| s.name == name) {
+            let names: Vec<String> = budget
+                .switching
+                .iter()
+                .map(|s| format!("`{}`", s.name))
+                .collect();
+            return Err(CliError::Option {
+                option: "--source",
+                problem: format!(
+                    "no switching source is named `{name}`; the budget has {}",
+                    names.join(", ")
+                ),
+            });
+        }
+    }
+    if plot.is_some() && source.is_none() && budget.switching.len() > 1 {
+        return Err(CliError::Usage(
+            "--plot draws one switching source: name it with --source",
+        ));
+    }
+    let operating = match temperature {
+        None => Operating::OverRange,
+        Some(SweepTemperature::Reference) => Operating::Reference,
+        Some(SweepTemperature::Cold) => Operating::Cold,
+        Some(SweepTemperature::Hot) => Operating::Hot,
+    };
+    let (verdict, judged) = judge_in_full(&budget, operating).map_err(in_file(file))?;
+    let report = build_residue_report(&verdict, judged, |name| source.is_none_or(|s| s == name));
+    if let (Some(path), Some(first)) = (plot, report.sources.first()) {
+        write_file(path, &render_residue_svg(first)?)?;
+    }
+    output.emit_report(&report, &verdict.cautions)?;
+    Ok(exit_status(&verdict))
 }
 
 fn sweep(

@@ -25,6 +25,8 @@ pub struct RawBudget {
     #[serde(default)]
     pub interference: Vec<RawInterference>,
     #[serde(default)]
+    pub switching: Vec<RawSwitching>,
+    #[serde(default)]
     pub requirement: Option<RawRequirement>,
     #[serde(default)]
     pub extra_frequencies: Vec<Scalar>,
@@ -391,6 +393,44 @@ pub struct RawInterference {
     pub frequency: Scalar,
     #[serde(default)]
     pub max_error: Option<Scalar>,
+}
+
+/// A switching common-mode waveform: a periodic trapezoid.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawSwitching {
+    pub name: String,
+    pub low: Scalar,
+    pub high: Scalar,
+    pub frequency: Scalar,
+    pub duty: Scalar,
+    pub rise_time: Scalar,
+    pub fall_time: Scalar,
+    #[serde(default)]
+    pub harmonics_to: Option<Scalar>,
+    #[serde(default)]
+    pub max_error: Option<Scalar>,
+    #[serde(default)]
+    pub blanking: Option<Scalar>,
+    #[serde(default)]
+    pub sample: Option<RawSample>,
+}
+
+/// A converter's sampling window after an edge.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawSample {
+    pub after: RawEdge,
+    pub delay: Scalar,
+    pub window: Scalar,
+}
+
+/// A switching edge.
+#[derive(Debug, Clone, Copy, Deserialize, JsonSchema)]
+#[serde(rename_all = "snake_case")]
+pub enum RawEdge {
+    Rising,
+    Falling,
 }
 
 /// What the design must achieve.

@@ -20,6 +20,9 @@ pub struct Budget {
     pub null_trim: Option<NullTrim>,
     /// The common-mode interference sources.
     pub interference: Vec<Interference>,
+    /// Periodic switching common-mode waveforms (PWM edges), analysed in
+    /// time rather than as one sine.
+    pub switching: Vec<Switching>,
     /// What the design must achieve, when stated.
     pub requirement: Option<Requirement>,
     /// Further frequencies (Hz) at which to report the CMRR.
@@ -179,6 +182,86 @@ pub struct Interference {
     /// The largest error it may leave, referred to the input; overrides the
     /// requirement's default when given.
     pub max_error: Option<ErrorLimit>,
+}
+
+/// A periodic common-mode waveform: a trapezoid switching between two
+/// levels, as at a PWM-driven node or a ground that shifts with each
+/// switching edge.
+///
+/// Time runs from the start of the rising edge. The duty cycle is the
+/// share of the period between the 50 % points of the rising and the
+/// falling edge; the edges are linear ramps.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Trapezoid {
+    /// The level between the falling and the rising edge, volts.
+    pub low_v: f64,
+    /// The level between the rising and the falling edge, volts.
+    pub high_v: f64,
+    /// The switching frequency, Hz.
+    pub frequency_hz: f64,
+    /// The duty cycle, 0 to 1.
+    pub duty: f64,
+    /// The rising edge's duration (0 % to 100 %), seconds.
+    pub rise_s: f64,
+    /// The falling edge's duration, seconds.
+    pub fall_s: f64,
+}
+
+/// Which switching edge a time is counted from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Edge {
+    /// The edge from the low to the high level.
+    Rising,
+    /// The edge from the high to the low level.
+    Falling,
+}
+
+impl Edge {
+    /// The name printed in reports.
+    pub fn label(self) -> &'static str {
+        match self {
+            Edge::Rising => "rising",
+            Edge::Falling => "falling",
+        }
+    }
+}
+
+/// Where a converter takes its sample: a window of `width_s` centred
+/// `delay_s` after the start of an edge. What the converter reads is the
+/// residue averaged over the window.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SampleWindow {
+    /// The edge the delay is counted from.
+    pub after: Edge,
+    /// From the start of that edge to the centre of the window, seconds.
+    pub delay_s: f64,
+    /// The window's width, seconds.
+    pub width_s: f64,
+}
+
+/// A switching common-mode source and what its residue is judged on.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Switching {
+    /// What it is, as the user named it.
+    pub name: String,
+    /// The common-mode waveform at the sensor.
+    pub waveform: Trapezoid,
+    /// Harmonics are summed up to this frequency, Hz.
+    pub harmonics_to_hz: f64,
+    /// Whether `harmonics_to_hz` was written in the file (otherwise it is
+    /// the default, ten over the shorter edge).
+    pub harmonics_to_stated: bool,
+    /// The largest residue it may leave, referred to the input; overrides
+    /// the requirement's default when given. Also the band the residue
+    /// must settle into after each edge.
+    pub max_error: Option<ErrorLimit>,
+    /// Time after the start of each edge in which the residue is not
+    /// judged (readings taken then are discarded), seconds.
+    pub blanking_s: Option<f64>,
+    /// The converter's sampling window, when the residue is judged as the
+    /// converter reads it.
+    pub sample: Option<SampleWindow>,
 }
 
 /// An allowed error referred to the input.

@@ -5,7 +5,8 @@ mod budget;
 mod params;
 
 pub use budget::{
-    describe_volts, Amplitude, Budget, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr,
-    NullTrim, Production, Requirement, Safety, SweepRange, TemperatureRange,
+    describe_volts, Amplitude, Budget, Edge, ErrorLimit, Interference, Judgement, Measurand,
+    MinimumCmrr, NullTrim, Production, Requirement, Safety, SampleWindow, SweepRange, Switching,
+    TemperatureRange, Trapezoid,
 };
 pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

@@ -9,7 +9,9 @@
 mod style;
 mod svg;
 pub mod terminal;
+mod time;
 
 pub use style::MAX_CONTRIBUTOR_CURVES;
 pub use svg::{plot_histogram, plot_overlay, plot_sweep, OverlaySeries, PlotError};
 pub use terminal::text_chart;
+pub use time::{plot_residue, ResiduePlot, TimeCurve};

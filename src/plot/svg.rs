@@ -12,7 +12,7 @@ use thiserror::Error;
 #[error("the plot could not be drawn: {0}")]
 pub struct PlotError(String);
 
-fn failed<E: std::fmt::Display>(error: E) -> PlotError {
+pub(super) fn failed<E: std::fmt::Display>(error: E) -> PlotError {
     PlotError(error.to_string())
 }
 

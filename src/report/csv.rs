@@ -44,6 +44,9 @@ pub fn render_csv(report: &Report) -> String {
             frequency.differential_gain,
         );
     }
+    for source in &report.switching {
+        super::switching::switching_csv_rows(&mut out, source);
+    }
     out
 }
 

@@ -9,7 +9,9 @@ pub mod csv;
 pub mod design;
 pub mod json;
 pub mod layout;
+pub mod residue;
 pub mod sweep;
+pub mod switching;
 pub mod table;
 pub mod yield_report;
 

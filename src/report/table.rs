@@ -36,6 +36,10 @@ pub fn render_table(report: &Report) -> String {
         out.push('\n');
         out.push_str(&frequency_section(frequency));
     }
+    for source in &report.switching {
+        out.push('\n');
+        out.push_str(&super::switching::switching_section(source));
+    }
     out.push('\n');
     out.push_str(&verdict_line(report));
     out
@@ -297,7 +301,12 @@ fn requirement_lines(outcome: &RequirementOutcome, judged: &JudgedFigure) -> Str
 
 /// The verdict in one line, as every command prints it.
 pub fn verdict_line(report: &Report) -> String {
-    let verdict = &report.verdict;
+    verdict_sentence(&report.verdict, report.headroom.len())
+}
+
+/// The verdict in one line, from the verdict and how many headroom
+/// findings there are.
+pub fn verdict_sentence(verdict: &super::Verdict, headroom_findings: usize) -> String {
     let at = verdict
         .tightest
         .as_deref()
@@ -305,7 +314,7 @@ pub fn verdict_line(report: &Report) -> String {
     match (verdict.status, verdict.margin_db) {
         (Status::DoesNotHold, _) => format!(
             "verdict: DOES NOT HOLD: {} node(s) leave their range (see the headroom warnings), so the small-signal figures do not apply{}\n",
-            report.headroom.len(),
+            headroom_findings,
             verdict.margin_db.map_or(String::new(), |m| format!("; the smallest margin would be {}{at}", format_db(m.0)))
         ),
         (Status::Met, Some(margin)) => format!(

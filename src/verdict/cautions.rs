@@ -18,14 +18,26 @@ pub fn cautions(budget: &Budget) -> Vec<String> {
             source.amplitude.peak_volts() > HAZARD_PEAK_AC_V
         }
     });
-    if hazardous.is_some() || budget.safety.mains_referenced {
-        let what = match hazardous {
-            Some(source) => format!(
+    // A switching common mode is hazardous where a level is beyond the
+    // DC limit or its swing beyond the alternating one.
+    let switching = budget.switching.iter().find(|s| {
+        let w = &s.waveform;
+        w.low_v.abs().max(w.high_v.abs()) > HAZARD_DC_V || w.step_v().abs() / 2.0 > HAZARD_PEAK_AC_V
+    });
+    if hazardous.is_some() || switching.is_some() || budget.safety.mains_referenced {
+        let what = match (hazardous, switching) {
+            (Some(source), _) => format!(
                 "the common mode of `{}` ({}) is a hazardous voltage",
                 source.name,
                 describe_volts(source.amplitude.volts, source.amplitude.form)
             ),
-            None => "the measured circuit is referred to the mains".to_string(),
+            (None, Some(s)) => format!(
+                "the common mode of `{}` switches between {} and {}, a hazardous voltage",
+                s.name,
+                crate::quantity::format_si(s.waveform.low_v, "V"),
+                crate::quantity::format_si(s.waveform.high_v, "V")
+            ),
+            (None, None) => "the measured circuit is referred to the mains".to_string(),
         };
         cautions.push(format!(
             "CAUTION: {what}. Exceeding an amplifier's input common-mode range or absolute maximum \

@@ -6,6 +6,10 @@ use crate::quantity::{format_db, format_si, Dimension};
 use crate::stage::{OpAmp, Point, StageKind};
 
 /// How the budget was read where the file left something out.
+/// What a switching source's residue leaves out, said wherever it is
+/// reported.
+pub const OUTSIDE_THE_SWITCHING_MODEL: &str = "switching residues are small-signal: slew-rate limiting, input overload and the recovery from it, and the common-mode transient immunity of isolated amplifiers are large-signal effects they do not include; check them against the parts' data and on the bench";
+
 pub(crate) fn remarks(budget: &Budget) -> Vec<String> {
     let mut remarks = Vec::new();
     for stage in &budget.chain {
@@ -56,6 +60,9 @@ pub(crate) fn remarks(budget: &Budget) -> Vec<String> {
             "taken as exact (no tolerance given): {}",
             exact.join(", ")
         ));
+    }
+    if !budget.switching.is_empty() {
+        remarks.push(OUTSIDE_THE_SWITCHING_MODEL.to_string());
     }
     remarks
 }

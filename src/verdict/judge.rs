@@ -55,7 +55,10 @@ impl Operating {
 
     /// The temperature excursion the figures are shown at, and the ends
     /// (excursion, kelvin) judged beside it.
-    fn excursions(self, budget: &Budget) -> Result<(f64, Vec<(f64, f64)>), VerdictError> {
+    pub(super) fn excursions(
+        self,
+        budget: &Budget,
+    ) -> Result<(f64, Vec<(f64, f64)>), VerdictError> {
         let range = budget.temperature;
         match (self, range) {
             (Operating::OverRange, Some(r)) => {
@@ -154,6 +157,15 @@ pub fn judge(budget: &Budget) -> Result<Report, VerdictError> {
 /// Judge `budget` at every frequency it names, the temperature taken as
 /// `operating` says, and assemble the report.
 pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, VerdictError> {
+    Ok(judge_in_full(budget, operating)?.0)
+}
+
+/// [`judge_with`], keeping the switching sources' residue waveforms (for
+/// plots and data) beside the report.
+pub fn judge_in_full(
+    budget: &Budget,
+    operating: Operating,
+) -> Result<(Report, Vec<super::JudgedSwitching>), VerdictError> {
     let requirement = budget.requirement.as_ref();
     let judgement = judged_on(requirement);
     // Every frequency the budget names, once, in the order first named.
@@ -223,6 +235,8 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
     }
     frequencies.sort_by(|a, b| a.frequency_hz.total_cmp(&b.frequency_hz));
     let headroom = check_headroom(budget)?;
+    let judged_switching = judge_switching_sources(budget, operating)?;
+    let switching = judged_switching.iter().map(|s| s.result.clone()).collect();
     let mut report = Report {
         schema_version: SCHEMA_VERSION,
         budget: budget.name.clone(),
@@ -234,6 +248,7 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
         headroom,
         results,
         frequencies,
+        switching,
         verdict: Verdict {
             status: Status::NoRequirement,
             met: None,
@@ -242,17 +257,52 @@ pub fn judge_with(budget: &Budget, operating: Operating) -> Result<Report, Verdi
         },
     };
     report.verdict = verdict(&report);
-    Ok(report)
+    Ok((report, judged_switching))
 }
 
-/// The verdict over every judged point; a headroom finding means the
-/// figures do not hold, whatever the margins say.
+/// Every switching source of `budget` judged, the temperature taken as
+/// `operating` says, with the residue waveforms for plots and data.
+pub fn judge_switching_sources(
+    budget: &Budget,
+    operating: Operating,
+) -> Result<Vec<super::JudgedSwitching>, VerdictError> {
+    let (shown_dt, ends) = operating.excursions(budget)?;
+    let shown_k = (shown_dt != 0.0)
+        .then(|| budget.temperature.map(|r| r.reference_k + shown_dt))
+        .flatten();
+    let requirement = budget.requirement.as_ref();
+    Ok(budget
+        .switching
+        .iter()
+        .map(|source| {
+            super::switching::judge_switching(
+                budget,
+                source,
+                (shown_dt, shown_k),
+                &ends,
+                requirement,
+            )
+        })
+        .collect::<Result<Vec<_>, _>>()?)
+}
+
+/// The verdict over every judged point and switching source; a headroom
+/// finding means the figures do not hold, whatever the margins say.
 fn verdict(report: &Report) -> Verdict {
     let points = report.judged_points();
-    let all_met = points.iter().filter_map(|p| p.requirement).all(|o| o.met);
-    let tightest = points
+    let switching = report
+        .switching
+        .iter()
+        .filter_map(|s| s.requirement.as_ref().map(|o| (s.source.clone(), o)));
+    let outcomes: Vec<(String, &super::RequirementOutcome)> = points
         .into_iter()
-        .filter_map(|p| p.requirement.map(|o| (p.at, o.margin_db)))
+        .filter_map(|p| p.requirement.map(|o| (p.at, o)))
+        .chain(switching)
+        .collect();
+    let all_met = outcomes.iter().all(|(_, o)| o.met);
+    let tightest = outcomes
+        .into_iter()
+        .map(|(at, o)| (at, o.margin_db))
         .min_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
     let holds = report.headroom.is_empty();
     let status = match (&tightest, holds) {
@@ -380,7 +430,7 @@ fn corner(budget: &Budget, analysed: &Analysed) -> Corner {
 }
 
 /// A parameter's value at a corner, with the end of its range it sits at.
-fn corner_value(budget: &Budget, id: crate::model::ParamId, value: f64) -> CornerValue {
+pub(super) fn corner_value(budget: &Budget, id: crate::model::ParamId, value: f64) -> CornerValue {
     use crate::model::Variation;
     let p = budget.parameters.get(id);
     let sign = if value >= p.nominal { "+" } else { "−" };

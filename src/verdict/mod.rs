@@ -13,11 +13,19 @@ mod cautions;
 mod checks;
 mod facts;
 mod judge;
+mod switching;
 
 pub use cautions::cautions;
 pub use checks::judged_on;
 pub(crate) use checks::same_frequency;
-pub use judge::{judge, judge_with, Operating, VerdictError};
+pub use facts::OUTSIDE_THE_SWITCHING_MODEL;
+pub use judge::{
+    judge, judge_in_full, judge_switching_sources, judge_with, Operating, VerdictError,
+};
+pub use switching::{
+    measure_of, JudgedSwitching, ResidueContribution, ResidueFigures, ResidueWaveforms,
+    SampleFigures, Settling, SwitchingResult,
+};
 
 use crate::engine::HeadroomFinding;
 use crate::model::Judgement;
@@ -204,6 +212,12 @@ pub enum CheckKind {
     },
     /// A maximum error for an interference source, referred to the input.
     MaximumError {
+        /// The source's name.
+        source: String,
+    },
+    /// A maximum residue for a switching source, referred to the input, in
+    /// the measure its limit names.
+    SwitchingError {
         /// The source's name.
         source: String,
     },
@@ -404,6 +418,9 @@ pub struct Report {
     /// Further frequencies: required CMRR points and extra frequencies not
     /// already covered by a source.
     pub frequencies: Vec<FrequencyResult>,
+    /// One entry per switching source, in file order: the residue over a
+    /// period.
+    pub switching: Vec<SwitchingResult>,
     /// The overall verdict.
     pub verdict: Verdict,
 }

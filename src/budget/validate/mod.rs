@@ -6,6 +6,7 @@ mod amplifiers;
 mod interference;
 mod pair;
 mod source;
+mod switching;
 mod temperature;
 
 use super::error::Diagnostic;
@@ -18,8 +19,8 @@ use crate::engine::MAX_STAGES;
 /// with its corner search at up to three temperatures.
 pub const MAX_POINTS: usize = 1000;
 use crate::model::{
-    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, TemperatureRange,
-    Variation,
+    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, Switching,
+    TemperatureRange, Variation,
 };
 use crate::quantity::{parse_quantity, Dimension, Quantity};
 use crate::stage::Stage;
@@ -60,6 +61,8 @@ enum Range {
     Positive,
     /// Zero or above.
     NonNegative,
+    /// Any finite value, of either sign (a level).
+    Any,
 }
 
 struct Validator<'a> {
@@ -103,6 +106,7 @@ impl Validator<'_> {
         let ok = match range {
             Range::Positive => quantity.value > 0.0,
             Range::NonNegative => quantity.value >= 0.0,
+            Range::Any => true,
         };
         if !ok {
             let (what, fix) = match range {
@@ -110,7 +114,9 @@ impl Validator<'_> {
                     "above zero",
                     "give a positive value, or leave the field out when the part is absent",
                 ),
-                Range::NonNegative => ("zero or above", "give a value of zero or more"),
+                Range::NonNegative | Range::Any => {
+                    ("zero or above", "give a value of zero or more")
+                }
             };
             self.problem(
                 path,
@@ -282,6 +288,7 @@ impl Validator<'_> {
     fn bounded(&mut self, raw: &RawBudget) -> bool {
         let lists = [
             ("interference", raw.interference.len()),
+            ("switching", raw.switching.len()),
             ("extra_frequencies", raw.extra_frequencies.len()),
             (
                 "requirement.min_cmrr",
@@ -344,7 +351,16 @@ impl Validator<'_> {
             })
             .collect();
         self.check_error_limits(&raw.interference, &interference, requirement.as_ref());
+        let switching: Vec<Switching> = raw
+            .switching
+            .iter()
+            .enumerate()
+            .filter_map(|(i, source)| {
+                self.switching(source, &format!("switching[{i}]"), requirement.as_ref())
+            })
+            .collect();
         let has_points = !interference.is_empty()
+            || !switching.is_empty()
             || !extra_frequencies_hz.is_empty()
             || requirement.as_ref().is_some_and(|r| !r.min_cmrr.is_empty());
         if !has_points && self.problems.is_empty() {
@@ -361,6 +377,7 @@ impl Validator<'_> {
             parameters: std::mem::take(&mut self.parameters),
             null_trim: None,
             interference,
+            switching,
             requirement,
             extra_frequencies_hz,
             safety: Safety {

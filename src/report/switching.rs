@@ -1,0 +1,242 @@
+//! Switching sources in the budget report: per source, what switches, how
+//! the residue was summed, its contributors, its totals (peak, rms, the
+//! judged measure, settling after each edge) and its check; and the same
+//! as CSV rows.
+
+use super::csv::{escape, number};
+use super::layout::styled;
+use super::table::celsius;
+use crate::quantity::{format_db, format_fraction, format_si};
+use crate::verdict::{ResidueFigures, Settling, SwitchingResult, Totals, TOTALS};
+use tabled::builder::Builder;
+
+/// What switches, in one line.
+pub fn waveform_line(result: &SwitchingResult) -> String {
+    format!(
+        "{}: common mode switching {} to {} at {}, duty {}, rising edge {}, falling edge {}\n",
+        result.source,
+        format_si(result.low_v, "V"),
+        format_si(result.high_v, "V"),
+        format_si(result.frequency_hz, "Hz"),
+        format_fraction(result.duty),
+        format_si(result.rise_time_s, "s"),
+        format_si(result.fall_time_s, "s"),
+    )
+}
+
+/// How the residue was formed, in one line.
+pub fn method_line(result: &SwitchingResult) -> String {
+    format!(
+        "residue over {} harmonics up to {}{}, sampled every {}, referred to the input through the chain's DC gain of {}\n",
+        result.harmonics,
+        format_si(result.harmonics_to_hz, "Hz"),
+        if result.harmonics_to_stated { "" } else { " (ten over the shorter edge)" },
+        format_si(result.time_step_s, "s"),
+        format_si(result.differential_gain, "V/V"),
+    )
+}
+
+/// A settling time, or that it does not settle before the next edge.
+pub fn settling_text(time: Option<f64>) -> String {
+    match time {
+        Some(0.0) => "never outside".to_string(),
+        Some(t) => format_si(t, "s"),
+        None => "does not settle".to_string(),
+    }
+}
+
+/// The switching source's section of the terminal report.
+pub fn switching_section(result: &SwitchingResult) -> String {
+    let mut out = waveform_line(result);
+    out.push_str(&method_line(result));
+    let figures = &result.reference;
+    let measure = result.measure;
+    let mut table = Builder::default();
+    let judged_header = format!("residue RTI ({measure})");
+    table.push_record([
+        "contributor",
+        "stage",
+        "value",
+        judged_header.as_str(),
+        "share of the sum",
+    ]);
+    for row in &figures.contributions {
+        table.push_record([
+            row.name.clone(),
+            row.stage.clone(),
+            row.value.clone(),
+            format_si(row.residue_rti_v, "V"),
+            format!("{:.1} %", row.share * 100.0),
+        ]);
+    }
+    if figures.contributions.is_empty() {
+        out.push_str("no contributor varies: every part is taken as exact\n");
+    } else {
+        out.push_str(&styled(table, 3..usize::MAX));
+        out.push('\n');
+    }
+    out.push_str(&totals_table(result, figures));
+    out.push_str(&format!(
+        "worst corner: each varying part at the end the linear model puts worst for the {measure}, solved exactly\n"
+    ));
+    out.push_str(&format!(
+        "harmonics above {} add at most {} RTI (if the conversion rises no higher above it than in the octave below)\n",
+        format_si(result.harmonics_to_hz, "Hz"),
+        format_si(figures.truncation_rti_v, "V")
+    ));
+    if let Some(end) = &result.at_temperature {
+        out.push_str(&temperature_line(result, end));
+    }
+    if let Some(outcome) = &result.requirement {
+        let at = match result.judged_temperature_k {
+            Some(k) => format!("at {}", celsius(k)),
+            None => "at the reference temperature".to_string(),
+        };
+        out.push_str(&format!(
+            "requirement (judged on {}, {at}: {} {}): {}, margin {}\n",
+            outcome.judged_on.label(),
+            measure,
+            format_si(result.judged_rti_v, "V"),
+            if outcome.met { "met" } else { "MISSED" },
+            format_db(outcome.margin_db.0)
+        ));
+        for check in &outcome.checks {
+            out.push_str(&format!(
+                "  {}: {} ({} by {})\n",
+                check.limit,
+                check.achieved,
+                if check.met { "met" } else { "MISSED" },
+                format_db(check.margin_db.0.abs())
+            ));
+        }
+    }
+    out
+}
+
+fn totals_table(result: &SwitchingResult, figures: &ResidueFigures) -> String {
+    let mut table = Builder::default();
+    let mut header = vec![
+        "total".to_string(),
+        "peak RTI".to_string(),
+        "rms RTI".to_string(),
+        "peak RTO".to_string(),
+    ];
+    let judged_extra = result.blanking_s.is_some() || result.sample.is_some();
+    if judged_extra {
+        header.push(format!("{} RTI", result.measure));
+    }
+    if figures.settling.is_some() {
+        header.push("settles after rising edge".into());
+        header.push("after falling edge".into());
+    }
+    table.push_record(header);
+    for judgement in TOTALS {
+        let pick = |t: &Totals<f64>| t.judged(judgement);
+        let mut row = vec![
+            judgement.label().to_string(),
+            format_si(pick(&figures.peak_rti_v), "V"),
+            format_si(pick(&figures.rms_rti_v), "V"),
+            format_si(pick(&figures.peak_rti_v) * result.differential_gain, "V"),
+        ];
+        if judged_extra {
+            row.push(format_si(pick(&figures.judged_rti_v), "V"));
+        }
+        if let Some(s) = &figures.settling {
+            row.push(settling_text(s.after_rising_s.judged(judgement)));
+            row.push(settling_text(s.after_falling_s.judged(judgement)));
+        }
+        table.push_record(row);
+    }
+    let mut out = styled(table, 1..usize::MAX);
+    out.push('\n');
+    if let Some(s) = &figures.settling {
+        out.push_str(&band_line(s));
+    }
+    out
+}
+
+fn band_line(settling: &Settling) -> String {
+    format!(
+        "settling: from the start of each edge until the residue stays within ±{} RTI (the allowed error) up to the next edge\n",
+        format_si(settling.band_rti_v, "V")
+    )
+}
+
+fn temperature_line(result: &SwitchingResult, end: &ResidueFigures) -> String {
+    let kelvin = end.temperature_k.unwrap_or(f64::NAN);
+    let mut out = format!(
+        "at {} (the worse end of the temperature range): {} worst case {}, worst corner {}",
+        celsius(kelvin),
+        result.measure,
+        format_si(end.judged_rti_v.worst_case, "V"),
+        format_si(end.judged_rti_v.worst_corner, "V"),
+    );
+    if let Some(s) = &end.settling {
+        out.push_str(&format!(
+            "; settles (worst case) {} after the rising edge, {} after the falling",
+            settling_text(s.after_rising_s.worst_case),
+            settling_text(s.after_falling_s.worst_case)
+        ));
+    }
+    out.push('\n');
+    out
+}
+
+/// The switching sources' rows of the budget CSV: the lead columns carry
+/// the source, its switching frequency, its step and the form
+/// `switching`; the error columns the judged measure of the residue.
+pub fn switching_csv_rows(out: &mut String, result: &SwitchingResult) {
+    let lead = [
+        result.source.clone(),
+        number(result.frequency_hz),
+        number(result.high_v - result.low_v),
+        "switching".to_string(),
+    ];
+    let gain = result.differential_gain;
+    let figures = &result.reference;
+    let mut push = |fields: [String; 9]| {
+        let line: Vec<String> = lead
+            .iter()
+            .chain(fields.iter())
+            .map(|f| escape(f))
+            .collect();
+        out.push_str(&line.join(","));
+        out.push('\n');
+    };
+    for row in &figures.contributions {
+        let kind = if row.name == "nominal imbalance" {
+            "systematic"
+        } else {
+            "random"
+        };
+        push([
+            "contribution".into(),
+            row.name.clone(),
+            row.stage.clone(),
+            row.value.clone(),
+            kind.into(),
+            String::new(),
+            number(row.residue_rti_v),
+            number(row.residue_rti_v * gain),
+            number(row.share),
+        ]);
+    }
+    for judgement in TOTALS {
+        let e = figures.judged_rti_v.judged(judgement);
+        let name = match judgement {
+            crate::model::Judgement::Rss => "rss",
+            other => other.label(),
+        };
+        push([
+            "total".into(),
+            name.into(),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            number(e),
+            number(e * gain),
+            String::new(),
+        ]);
+    }
+}
