@@ -230,6 +230,10 @@ enum Command {
         /// the budget has several).
         #[arg(long, value_name = "FILE.svg")]
         plot: Option<PathBuf>,
+        /// Write at most this many samples per period in the CSV and JSON
+        /// (every k-th of those computed; default: all of them).
+        #[arg(long, value_name = "N")]
+        samples: Option<usize>,
     },
     /// Put several designs side by side: each interference source's CMRR,
     /// error, margin and dominant contributor per design.
@@ -490,12 +494,13 @@ fn run(cli: Cli) -> Result<u8, CliError> {
             temperature,
             output,
             plot,
+            samples,
         } => residue(
             &file,
             source.as_deref(),
             temperature,
             &output,
-            plot.as_deref(),
+            (plot.as_deref(), samples),
         ),
         Command::Sweep {
             file,
@@ -894,8 +899,14 @@ fn residue(
     source: Option<&str>,
     temperature: Option<SweepTemperature>,
     output: &OutputArgs,
-    plot: Option<&Path>,
+    (plot, samples): (Option<&Path>, Option<usize>),
 ) -> Result<u8, CliError> {
+    if samples == Some(0) {
+        return Err(CliError::Option {
+            option: "--samples",
+            problem: "give at least 1 sample per period".into(),
+        });
+    }
     output.check_paths(&[file], plot)?;
     let budget = load(file)?;
     if budget.switching.is_empty() {
@@ -939,6 +950,10 @@ fn residue(
     if let (Some(path), Some(first)) = (plot, report.sources.first()) {
         write_file(path, &render_residue_svg(first)?)?;
     }
+    let report = match samples {
+        Some(n) => report.thinned(n),
+        None => report,
+    };
     output.emit_report(&report, &verdict.cautions)?;
     Ok(exit_status(&verdict))
 }

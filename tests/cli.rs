@@ -29,7 +29,8 @@ fn yaml_files(folder: &Path) -> Vec<PathBuf> {
 fn expected_status(name: &str) -> i32 {
     match name {
         "load-cell-scale.yaml" => 0,
-        "motor-shunt.yaml" => 1,
+        // Its switching residue settles within the 5 µs blanking (issue 14).
+        "motor-shunt.yaml" => 0,
         "bridge-three-opamp.yaml" => 1,
         // Its output leaves the swing (headroom), so its figures do not
         // hold and the verdict fails (issue 10).
@@ -537,7 +538,7 @@ fn issue_17_standard_input_and_output() {
         .args(["budget", "-", "-o", "-", "--format", "csv"])
         .write_stdin(text)
         .assert()
-        .code(1)
+        .code(0)
         .stdout(predicates::str::starts_with("source,frequency_hz"));
     cmrr()
         .args(["check", "-"])

@@ -132,6 +132,36 @@ fn golden_yield() {
     );
 }
 
+/// `cmrr residue` on every example with switching sources; the waveforms
+/// thinned to 64 samples per period so the pins stay small.
+#[test]
+fn golden_residue() {
+    let mut failures = Vec::new();
+    for example in examples() {
+        let file = format!("budgets/{example}.yaml");
+        let text = fs::read_to_string(repository().join(&file)).unwrap();
+        if !text.contains("\nswitching:") {
+            continue;
+        }
+        for (format, ext) in [("table", "txt"), ("json", "json"), ("csv", "csv")] {
+            let args = [
+                "residue",
+                file.as_str(),
+                "--samples",
+                "64",
+                "--format",
+                format,
+            ];
+            let path = repository()
+                .join("tests/golden")
+                .join(&example)
+                .join(format!("residue.{ext}"));
+            failures.extend(pin(&path, &rendered(&args)));
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
 #[test]
 fn golden_improve() {
     pin_command("improve", &["improve"]);

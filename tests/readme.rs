@@ -29,8 +29,15 @@ fn readme_budget_examples_parse() {
                 .collect();
             format!("name: readme stages\ntemperature: {{reference: 25 degC, range: [0 degC, 70 degC]}}\nchain:\n{stages}{hum}")
         } else {
-            // Top-level sections: add a minimal chain.
-            format!("{block}name: readme sections\nchain:\n  - difference_amp: {{r1: 10k, r2: 10k, r3: 10k, r4: 10k, tcr: 25 ppm/K}}\n{hum}")
+            // Top-level sections: add a minimal chain (and a temperature
+            // range for its resistors' coefficient, unless the block has
+            // one).
+            let range = if block.contains("temperature:") {
+                ""
+            } else {
+                "temperature: {reference: 25 degC, range: [0 degC, 70 degC]}\n"
+            };
+            format!("{block}{range}name: readme sections\nchain:\n  - difference_amp: {{r1: 10k, r2: 10k, r3: 10k, r4: 10k, tcr: 25 ppm/K}}\n{hum}")
         };
         if let Err(error) = parse_budget(&text, "README.md") {
             panic!("README yaml block {index} does not parse:\n{error}\n---\n{text}");

@@ -143,6 +143,10 @@ pub struct YieldReport {
     pub status: Status,
     /// The verdict's headroom findings (nominal values).
     pub headroom: Vec<HeadroomFinding>,
+    /// Switching sources the yield leaves out: their residues are judged
+    /// once, at nominal values and the corners (`cmrr budget`,
+    /// `cmrr residue`), not per trial.
+    pub not_counted: Vec<String>,
 }
 
 /// Why `cmrr yield` failed.
@@ -348,6 +352,7 @@ pub fn production_yield_judged(
         }),
         status: verdict.verdict.status,
         headroom: verdict.headroom.clone(),
+        not_counted: verdict.switching.iter().map(|s| s.source.clone()).collect(),
     };
     Ok((report, run))
 }

@@ -85,6 +85,9 @@ pub struct ImproveReport {
     pub headroom: Vec<crate::engine::HeadroomFinding>,
     /// What halving each spread buys, best first.
     pub sensitivity: Vec<Sensitivity>,
+    /// Switching sources left out of the allocation and the ranking (their
+    /// contributors are in `cmrr budget` and `cmrr residue`).
+    pub not_ranked: Vec<String>,
 }
 
 /// `cmrr improve` as a terminal report.
@@ -95,6 +98,12 @@ pub fn render_improve_table(report: &ImproveReport) -> String {
     }
     if !report.headroom.is_empty() {
         out.push_str("the design as written does not hold: clear the headroom findings first; the figures below are small-signal figures only\n");
+    }
+    if !report.not_ranked.is_empty() {
+        out.push_str(&format!(
+            "not ranked here: the switching source(s) {}; their contributors are in `cmrr budget` and `cmrr residue`\n",
+            super::yield_report::quoted_list(&report.not_ranked)
+        ));
     }
     if report.allocation.is_empty() {
         out.push_str("no requirement stated: nothing to allocate\n");
@@ -257,6 +266,7 @@ pub fn improve_report(
         status: verdict.verdict.status,
         headroom: verdict.headroom.clone(),
         sensitivity,
+        not_ranked: verdict.switching.iter().map(|s| s.source.clone()).collect(),
     }
 }
 

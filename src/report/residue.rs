@@ -69,8 +69,47 @@ pub struct ResidueReport {
     pub verdict: Verdict,
 }
 
+/// Every `stride`-th sample.
+fn thinned(samples: &[f64], stride: usize) -> Vec<f64> {
+    samples.iter().copied().step_by(stride).collect()
+}
+
+impl Waveforms {
+    /// At most `samples` per period: every k-th computed sample (the
+    /// plot is drawn from every sample; this is for the data written).
+    pub fn thinned(&self, samples: usize) -> Waveforms {
+        let stride = self.common_mode_v.len().div_ceil(samples.max(1)).max(1);
+        Waveforms {
+            time_step_s: self.time_step_s * stride as f64,
+            common_mode_v: thinned(&self.common_mode_v, stride),
+            at: self
+                .at
+                .iter()
+                .map(|w| WaveformsAt {
+                    temperature_k: w.temperature_k,
+                    nominal_rti_v: thinned(&w.nominal_rti_v, stride),
+                    worst_corner_rti_v: thinned(&w.worst_corner_rti_v, stride),
+                    worst_case_bound_rti_v: thinned(&w.worst_case_bound_rti_v, stride),
+                    rss_bound_rti_v: thinned(&w.rss_bound_rti_v, stride),
+                })
+                .collect(),
+        }
+    }
+}
+
+impl ResidueReport {
+    /// The same report with every source's waveforms thinned to at most
+    /// `samples` per period.
+    pub fn thinned(mut self, samples: usize) -> ResidueReport {
+        for source in &mut self.sources {
+            source.waveforms = source.waveforms.thinned(samples);
+        }
+        self
+    }
+}
+
 /// Assemble the report from the judged budget and its switching sources,
-/// keeping those `keep` accepts.
+/// keeping those `keep` accepts, with every computed sample.
 pub fn build_residue_report(
     report: &Report,
     judged: Vec<JudgedSwitching>,

@@ -79,6 +79,9 @@ pub fn switching_section(result: &SwitchingResult) -> String {
     out.push_str(&format!(
         "worst corner: each varying part at the end the linear model puts worst for the {measure}, solved exactly\n"
     ));
+    if let Some(why) = &figures.corner_exceeds_bound {
+        out.push_str(&format!("  {why}\n"));
+    }
     out.push_str(&format!(
         "harmonics above {} add at most {} RTI (if the conversion rises no higher above it than in the octave below)\n",
         format_si(result.harmonics_to_hz, "Hz"),

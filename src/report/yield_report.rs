@@ -125,6 +125,12 @@ pub fn render_yield_table(report: &YieldReport) -> String {
         ),
         (None, _) => out.push_str("\nno requirement stated: no yield\n"),
     }
+    if !report.not_counted.is_empty() {
+        out.push_str(&format!(
+            "not counted in the yield: the switching source(s) {}; their residues are judged at nominal values and the corners (`cmrr budget`, `cmrr residue`)\n",
+            quoted_list(&report.not_counted)
+        ));
+    }
     if let Some(f) = report.frequencies.iter().min_by(|a, b| {
         a.worst_corner
             .cmrr_db
@@ -190,4 +196,13 @@ pub fn histogram_points(run: &YieldRun, index: usize) -> Vec<(f64, u64)> {
         }
         None => Vec::new(),
     }
+}
+
+/// Names in backquotes, comma-separated.
+pub(crate) fn quoted_list(names: &[String]) -> String {
+    names
+        .iter()
+        .map(|n| format!("`{n}`"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }

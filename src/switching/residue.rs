@@ -29,10 +29,11 @@ pub fn harmonic_count(source: &Switching) -> u64 {
     ((source.harmonics_to_hz / source.waveform.frequency_hz).floor() as u64).max(1)
 }
 
-/// How many samples per period: a power of two, at least four per period
-/// of the highest harmonic.
+/// How many samples per period: a power of two, above two per period of
+/// the highest harmonic (the series is then sampled without aliasing) and
+/// at least [`MIN_SAMPLES`].
 pub fn sample_count(harmonics: u64) -> usize {
-    (4 * (harmonics as usize + 1))
+    (2 * (harmonics as usize + 1))
         .next_power_of_two()
         .max(MIN_SAMPLES)
 }
@@ -146,67 +147,64 @@ pub fn analyse_residue(
     let points = sample_count(harmonic_count(source));
     let mut values = budget.parameters.values_at(delta_t);
     settle(budget, &mut values, delta_t)?;
+    let values = values;
     let nominal_responses = responses(budget, &values, &freqs)?;
     let gain_dc = dc_gain(&nominal_responses)?;
     let nominal = residue_from(&nominal_responses, &waveform, gain_dc, points);
-    let mut deviations = Vec::new();
     // The conversion's bound over the top octave of harmonics, for the
     // truncation: nominal plus every deviation's largest.
     let top = (freqs.len() / 2).max(1);
+    let varying: Vec<(ParamId, [f64; 2])> = budget
+        .parameters
+        .iter()
+        .filter_map(|(id, p)| p.extremes().map(|e| (id, e)))
+        .collect();
+    // Each parameter's two ends, in parallel (each solve is the same
+    // whatever the order, so the result does not depend on the threads).
+    let moved: Vec<(Deviation, Vec<f64>)> = varying
+        .par_iter()
+        .map(|&(id, extremes)| {
+            let mut values = values.clone();
+            let mut residues = Vec::with_capacity(2);
+            let mut largest = vec![0.0f64; freqs.len() - top];
+            for extreme in extremes {
+                values[id.0] = extreme;
+                settle(budget, &mut values, delta_t)?;
+                let moved = responses(budget, &values, &freqs)?;
+                let moved_gain = dc_gain(&moved)?;
+                // The deviation of the residue (each referred through its
+                // own chain's gain), harmonic by harmonic.
+                let residue = residue_from(&moved, &waveform, moved_gain, points);
+                residues.push(difference(&residue, &nominal));
+                for ((l, m), n) in largest
+                    .iter_mut()
+                    .zip(&moved[top..])
+                    .zip(&nominal_responses[top..])
+                {
+                    *l = l.max((m.dc - n.dc).norm());
+                }
+            }
+            let [low, high]: [Residue; 2] = residues.try_into().expect("two ends");
+            Ok((
+                Deviation {
+                    param: id,
+                    values: extremes,
+                    residues: [low, high],
+                },
+                largest,
+            ))
+        })
+        .collect::<Result<_, EngineError>>()?;
     let mut top_octave: Vec<f64> = nominal_responses[top..]
         .iter()
         .map(|r| r.dc.norm())
         .collect();
-    for (id, parameter) in budget.parameters.iter() {
-        let Some(extremes) = parameter.extremes() else {
-            continue;
-        };
-        let mut residues = Vec::with_capacity(2);
-        let mut largest = vec![0.0f64; top_octave.len()];
-        for extreme in extremes {
-            values[id.0] = extreme;
-            settle(budget, &mut values, delta_t)?;
-            let moved = responses(budget, &values, &freqs)?;
-            let moved_gain = dc_gain(&moved)?;
-            // The deviation of the residue (each referred through its own
-            // chain's gain), harmonic by harmonic.
-            let residue = residue_from(&moved, &waveform, moved_gain, points);
-            let deviation = Residue {
-                samples: residue
-                    .samples
-                    .iter()
-                    .zip(&nominal.samples)
-                    .map(|(a, b)| a - b)
-                    .collect(),
-                dc: residue.dc - nominal.dc,
-                harmonics: residue
-                    .harmonics
-                    .iter()
-                    .zip(&nominal.harmonics)
-                    .map(|(a, b)| a - b)
-                    .collect(),
-            };
-            for ((l, m), n) in largest
-                .iter_mut()
-                .zip(&moved[top..])
-                .zip(&nominal_responses[top..])
-            {
-                *l = l.max((m.dc - n.dc).norm());
-            }
-            residues.push(deviation);
-        }
-        for (t, l) in top_octave.iter_mut().zip(&largest) {
+    for (_, largest) in &moved {
+        for (t, l) in top_octave.iter_mut().zip(largest) {
             *t += l;
         }
-        values[id.0] = parameter.nominal;
-        settle(budget, &mut values, delta_t)?;
-        let [low, high]: [Residue; 2] = residues.try_into().expect("two ends");
-        deviations.push(Deviation {
-            param: id,
-            values: extremes,
-            residues: [low, high],
-        });
     }
+    let deviations: Vec<Deviation> = moved.into_iter().map(|(d, _)| d).collect();
     let conversion_bound = top_octave.iter().copied().fold(0.0, f64::max) / gain_dc.abs();
     let truncation_v =
         source.waveform.truncation_bound_v(harmonic_count(source)) * conversion_bound;
@@ -217,6 +215,25 @@ pub fn analyse_residue(
         deviations,
         truncation_v,
     })
+}
+
+/// `a − b`, sample by sample and harmonic by harmonic.
+fn difference(a: &Residue, b: &Residue) -> Residue {
+    Residue {
+        samples: a
+            .samples
+            .iter()
+            .zip(&b.samples)
+            .map(|(x, y)| x - y)
+            .collect(),
+        dc: a.dc - b.dc,
+        harmonics: a
+            .harmonics
+            .iter()
+            .zip(&b.harmonics)
+            .map(|(x, y)| x - y)
+            .collect(),
+    }
 }
 
 /// The linear-bound envelope of the residue: at each sample the nominal

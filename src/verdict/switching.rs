@@ -68,6 +68,9 @@ pub struct ResidueFigures {
     pub contributions: Vec<ResidueContribution>,
     /// Every varying parameter's value at the worst corner.
     pub corner: Vec<CornerValue>,
+    /// Why the exact worst corner exceeds the linear bound, when it does by
+    /// more than 1 %.
+    pub corner_exceeds_bound: Option<String>,
 }
 
 /// The converter's sampling window, as judged.
@@ -198,6 +201,10 @@ fn band_of(source: &Switching) -> Option<f64> {
     }
 }
 
+/// A worst corner above the linear bound by more than this share is
+/// pointed out.
+const CORNER_EXCESS: f64 = 0.01;
+
 /// One temperature's analysis with its worst corner solved.
 struct AtTemperature {
     kelvin: Option<f64>,
@@ -270,7 +277,13 @@ impl AtTemperature {
         })
     }
 
-    fn figures(&self, budget: &Budget, source: &Switching, measure: &Measure) -> ResidueFigures {
+    fn figures(
+        &self,
+        budget: &Budget,
+        source: &Switching,
+        measure: &Measure,
+        judgement: Judgement,
+    ) -> ResidueFigures {
         let period = source.waveform.period_s();
         let m = |r: &Residue| measure.of(r, period);
         let mut contributions = Vec::new();
@@ -317,9 +330,22 @@ impl AtTemperature {
             self.analysis.deviations.iter().map(|d| {
                 super::judge::corner_value(budget, d.param, self.corner_values[d.param.0])
             });
+        let judged = self.totals(measure, source);
+        let excess = judged.worst_corner / judged.worst_case - 1.0;
+        let corner_exceeds_bound = (excess > CORNER_EXCESS).then(|| {
+            format!(
+                "the exact worst corner exceeds the linear bound by {:.1} %: the parts' extremes interact (a capacitor at its end also moves the time constant the residue decays with, which a first-order bound misses){}",
+                excess * 100.0,
+                if judgement == Judgement::WorstCorner {
+                    ""
+                } else {
+                    "; judge this source on `worst_corner`"
+                }
+            )
+        });
         ResidueFigures {
             temperature_k: self.kelvin,
-            judged_rti_v: self.totals(measure, source),
+            judged_rti_v: judged,
             peak_rti_v: self.totals(&Measure::Peak, source),
             rms_rti_v: self.totals(&Measure::Rms, source),
             window_mean_rti_v: matches!(measure, Measure::WindowMean { .. })
@@ -328,6 +354,7 @@ impl AtTemperature {
             truncation_rti_v: self.analysis.truncation_v,
             contributions,
             corner: varying.collect(),
+            corner_exceeds_bound,
         }
     }
 }
@@ -380,8 +407,10 @@ pub(super) fn judge_switching(
         }
         _ => (shown.kelvin, shown_judged),
     };
-    let figures = shown.figures(budget, source, &measure);
-    let worse_figures = worse.as_ref().map(|w| w.figures(budget, source, &measure));
+    let figures = shown.figures(budget, source, &measure, judgement);
+    let worse_figures = worse
+        .as_ref()
+        .map(|w| w.figures(budget, source, &measure, judgement));
     let check = source.max_error.map(|limit| {
         let settles = worse_figures
             .as_ref()

@@ -121,9 +121,11 @@ impl Validator<'_> {
             self.problem(
                 &format!("{path}.duty"),
                 format!(
-                    "at {} and {}, the edges ({} and {}) do not fit: each level must last at least half the two edges together ({})",
+                    "at {} and {} duty, the {} level lasts {} between the edges' 50 % points, less than half the two edges together ({} and {}, so {})",
                     format_si(frequency, "Hz"),
                     raw.duty.0.trim(),
+                    if duty * period < edges { "high" } else { "low" },
+                    format_si((duty * period).min((1.0 - duty) * period), "s"),
                     format_si(rise, "s"),
                     format_si(fall, "s"),
                     format_si(edges, "s")
