@@ -316,3 +316,64 @@ fn residue_writes_a_plot_with_its_title_and_band() {
     );
     std::fs::remove_dir_all(&dir).unwrap();
 }
+
+/// A switching level past the extra-low-voltage limits (60 V DC, 42.4 V
+/// peak alternating: common practice, from memory, local codes govern)
+/// carries the high-voltage caution; a 48 V bus switching 0 to 48 V does
+/// not (48 V level, 24 V peak swing).
+#[test]
+fn issue_14_a_high_voltage_switching_node_carries_the_caution() {
+    let with_bus = |high: &str| {
+        parse(&format!(
+            "name: phase node
+chain:
+  - difference_amp: {{r1: 100k ±0.1 %, r2: 5k ±0.1 %, r3: 100k ±0.1 %, r4: 5k ±0.1 %}}
+switching:
+  - name: phase node
+    low: 0 V
+    high: {high}
+    frequency: 20 kHz
+    duty: 50 %
+    rise_time: 20 ns
+    fall_time: 20 ns
+    harmonics_to: 100 MHz
+"
+        ))
+    };
+    let report = judge(&with_bus("400 V")).unwrap();
+    assert!(
+        report
+            .cautions
+            .iter()
+            .any(|c| c.contains("switches between 0 V and 400 V")),
+        "{:?}",
+        report.cautions
+    );
+    assert!(judge(&with_bus("48 V")).unwrap().cautions.is_empty());
+    // Every report with a switching source says what its model leaves out.
+    assert!(report
+        .remarks
+        .iter()
+        .any(|r| r.contains("slew-rate limiting")));
+}
+
+/// `compare` puts switching sources side by side with their residue,
+/// settling times and margins, as each verdict judges them.
+#[test]
+fn issue_14_compare_shows_switching_sources() {
+    let out = cmrr()
+        .args([
+            "compare",
+            "budgets/motor-shunt.yaml",
+            "budgets/load-cell-scale.yaml",
+            "--format",
+            "json",
+        ])
+        .output()
+        .unwrap();
+    let json: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let row = &json["switching_rows"][0];
+    assert_eq!(row["source"], "ground shift at each PWM edge");
+    assert_eq!(row["designs"][0]["measure"], "peak after blanking");
+    assert!(row["designs"][1].is_null());
+}

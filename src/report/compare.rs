@@ -66,6 +66,92 @@ pub struct CompareReport {
     /// One row per interference source (matched by name and frequency), in
     /// order of first appearance.
     pub rows: Vec<CompareRow>,
+    /// One row per switching source (matched by name and frequency), in
+    /// order of first appearance.
+    pub switching_rows: Vec<CompareSwitchingRow>,
+}
+
+/// One design's residue for one switching source, as its verdict judges it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SwitchingFigures {
+    /// The total judged.
+    pub judged_on: Judgement,
+    /// Where it is worst, kelvin; null at the reference temperature.
+    pub temperature_k: Option<f64>,
+    /// What the limit is compared with (`peak after blanking`, …).
+    pub measure: &'static str,
+    /// The judged residue, volts referred to the input.
+    pub residue_rti_v: f64,
+    /// The judged total's settling time after the rising and the falling
+    /// edge, seconds (null: does not settle); null without a band.
+    pub settles_s: Option<[Option<f64>; 2]>,
+    /// The requirement's margin, when a limit applies.
+    pub margin_db: Option<Db>,
+    /// Whether it is met, when a limit applies.
+    pub met: Option<bool>,
+    /// The largest contributor, `name (stage)`.
+    pub dominant: Option<String>,
+}
+
+/// One switching source across the designs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CompareSwitchingRow {
+    /// The source's name.
+    pub source: String,
+    /// Its switching frequency, Hz.
+    pub frequency_hz: f64,
+    /// One entry per design, in design order; null where a design has no
+    /// such source.
+    pub designs: Vec<Option<SwitchingFigures>>,
+}
+
+/// The designs' switching sources side by side.
+fn switching_rows(reports: &[(String, &Report)]) -> Vec<CompareSwitchingRow> {
+    let mut rows: Vec<CompareSwitchingRow> = Vec::new();
+    for (index, (_, report)) in reports.iter().enumerate() {
+        for s in &report.switching {
+            let figures = s
+                .at_temperature
+                .as_ref()
+                .filter(|_| s.judged_temperature_k.is_some())
+                .unwrap_or(&s.reference);
+            let judged = SwitchingFigures {
+                judged_on: s.judged_on,
+                temperature_k: s.judged_temperature_k,
+                measure: s.measure,
+                residue_rti_v: s.judged_rti_v,
+                settles_s: figures.settling.as_ref().map(|t| {
+                    [
+                        t.after_rising_s.judged(s.judged_on),
+                        t.after_falling_s.judged(s.judged_on),
+                    ]
+                }),
+                margin_db: s.requirement.as_ref().map(|r| r.margin_db),
+                met: s.requirement.as_ref().map(|r| r.met),
+                dominant: figures
+                    .contributions
+                    .first()
+                    .map(|c| format!("{} ({})", c.name, c.stage)),
+            };
+            let same = |row: &CompareSwitchingRow| {
+                row.source == s.source
+                    && (row.frequency_hz - s.frequency_hz).abs() <= 1e-9 * s.frequency_hz
+            };
+            let at = match rows.iter().position(same) {
+                Some(at) => at,
+                None => {
+                    rows.push(CompareSwitchingRow {
+                        source: s.source.clone(),
+                        frequency_hz: s.frequency_hz,
+                        designs: vec![None; reports.len()],
+                    });
+                    rows.len() - 1
+                }
+            };
+            rows[at].designs[index] = Some(judged);
+        }
+    }
+    rows
 }
 
 /// Labels for the designs: budget names, made unique with the file name.
@@ -133,7 +219,27 @@ pub fn build_compare_report(reports: &[(String, &Report)]) -> CompareReport {
         schema_version: SCHEMA_VERSION,
         designs: design_labels(reports),
         rows,
+        switching_rows: switching_rows(reports),
     }
+}
+
+/// A margin as the comparison prints it.
+fn margin_text(margin: Option<Db>, met: Option<bool>, status: Status) -> String {
+    match (margin, met, status) {
+        (_, _, Status::DoesNotHold) => "does not hold (headroom)".into(),
+        (Some(m), Some(true), _) => format!("met by {}", format_db(m.0)),
+        (Some(m), _, _) => format!("MISSED by {}", format_db(-m.0)),
+        _ => "no requirement".into(),
+    }
+}
+
+/// Where a judged figure sits, as the comparison prints it.
+fn judged_text(on: Judgement, temperature_k: Option<f64>) -> String {
+    format!(
+        "{}, {}",
+        on.label(),
+        temperature_k.map_or("reference".into(), celsius)
+    )
 }
 
 /// The comparison as terminal tables, one per source.
@@ -176,19 +282,54 @@ pub fn render_compare_table(report: &CompareReport) -> String {
             match figures {
                 Some(f) => table.push_record([
                     design.label.clone(),
-                    format!(
-                        "{}, {}",
-                        f.judged_on.label(),
-                        f.temperature_k.map_or("reference".into(), celsius)
-                    ),
+                    judged_text(f.judged_on, f.temperature_k),
                     format_db(f.cmrr_db.0),
                     describe_volts(f.error_rti_v, f.amplitude_form),
-                    match (f.margin_db, f.met, design.status) {
-                        (_, _, Status::DoesNotHold) => "does not hold (headroom)".into(),
-                        (Some(m), Some(true), _) => format!("met by {}", format_db(m.0)),
-                        (Some(m), _, _) => format!("MISSED by {}", format_db(-m.0)),
-                        _ => "no requirement".into(),
-                    },
+                    margin_text(f.margin_db, f.met, design.status),
+                    f.dominant.clone().unwrap_or_else(|| "none".into()),
+                ]),
+                None => table.push_record([
+                    design.label.clone(),
+                    "—".into(),
+                    "—".into(),
+                    "—".into(),
+                    "no such source".into(),
+                    "—".into(),
+                ]),
+            }
+        }
+        out.push_str(&super::layout::styled(table, 2..4));
+        out.push('\n');
+    }
+    for row in &report.switching_rows {
+        out.push_str(&format!(
+            "\n{} (switching at {})\n",
+            row.source,
+            format_si(row.frequency_hz, "Hz")
+        ));
+        let mut table = Builder::default();
+        table.push_record([
+            "design",
+            "judged on",
+            "residue RTI",
+            "settles after rising / falling edge",
+            "margin",
+            "dominant contributor",
+        ]);
+        for (design, figures) in report.designs.iter().zip(&row.designs) {
+            match figures {
+                Some(f) => table.push_record([
+                    design.label.clone(),
+                    judged_text(f.judged_on, f.temperature_k),
+                    format!("{} {}", format_si(f.residue_rti_v, "V"), f.measure),
+                    f.settles_s.map_or("no band".into(), |[r, fall]| {
+                        format!(
+                            "{} / {}",
+                            super::switching::settling_text(r),
+                            super::switching::settling_text(fall)
+                        )
+                    }),
+                    margin_text(f.margin_db, f.met, design.status),
                     f.dominant.clone().unwrap_or_else(|| "none".into()),
                 ]),
                 None => table.push_record([
@@ -226,6 +367,29 @@ pub fn render_compare_csv(report: &CompareReport) -> String {
                 format!("{}", f.error_rti_v),
                 f.amplitude_form
                     .map_or("dc".into(), |a| a.name().to_string()),
+                f.margin_db.map(super::csv::db).unwrap_or_default(),
+                f.met.map(|m| m.to_string()).unwrap_or_default(),
+                super::csv::escape(f.dominant.as_deref().unwrap_or("")),
+            ];
+            out.push_str(&fields.join(","));
+            out.push('\n');
+        }
+    }
+    // Switching sources: no CMRR; the judged residue as the error, with
+    // `switching` as its form.
+    for row in &report.switching_rows {
+        for (design, figures) in report.designs.iter().zip(&row.designs) {
+            let Some(f) = figures else { continue };
+            let fields = [
+                super::csv::escape(&row.source),
+                format!("{}", row.frequency_hz),
+                super::csv::escape(&design.label),
+                status_name(design.status).to_string(),
+                f.judged_on.label().replace(' ', "_"),
+                f.temperature_k.map(super::csv::number).unwrap_or_default(),
+                String::new(),
+                format!("{}", f.residue_rti_v),
+                "switching".into(),
                 f.margin_db.map(super::csv::db).unwrap_or_default(),
                 f.met.map(|m| m.to_string()).unwrap_or_default(),
                 super::csv::escape(f.dominant.as_deref().unwrap_or("")),
