@@ -264,7 +264,10 @@ fn issue_14_motor_shunt_answers_its_blanking_time() {
     let (report, judged) = judge_in_full(&budget, Operating::OverRange).unwrap();
     let s = &report.switching[0];
     let settling = s.reference.settling.as_ref().unwrap();
-    for after in [&settling.after_rising_s, &settling.after_falling_s] {
+    for after in [
+        &settling.after_rising_s,
+        settling.after_falling_s.as_ref().unwrap(),
+    ] {
         let t = after.worst_corner.unwrap();
         assert!(t > 1e-6 && t < 5e-6, "{t}");
     }
@@ -376,4 +379,78 @@ fn issue_14_compare_shows_switching_sources() {
     assert_eq!(row["source"], "ground shift at each PWM edge");
     assert_eq!(row["designs"][0]["measure"], "peak after blanking");
     assert!(row["designs"][1].is_null());
+}
+
+/// A single edge (issue 14, item 1): the step of given dV/dt through one
+/// RC mismatch against the same closed form as the periodic case. The
+/// edge is judged as the rising edge of a slow square wave whose period
+/// is doubled until the residue is flat before the next edge (what is left
+/// of the earlier edges then is below 0.1 % of the peak), so the residue
+/// over the window must match the single-edge response to that.
+#[test]
+fn issue_14_a_single_edge_matches_the_step_response() {
+    let budget = rc_pair(
+        0.02,
+        "  - name: one edge
+    low: 0 V
+    high: 10 V
+    slew_rate: 100 V/us
+    single_edge: true
+    max_error: 1 mV",
+    );
+    let source = &budget.switching[0];
+    assert!(source.single_edge);
+    // 10 V at 100 V/µs: a 100 ns edge.
+    assert!((source.waveform.rise_s - 100e-9).abs() < 1e-18);
+    let (report, judged) = judge_in_full(&budget, Operating::Reference).unwrap();
+    let result = &report.switching[0];
+    assert!(result.single_edge);
+    assert_eq!(result.flat_by_window_end, Some(true));
+    let samples = &judged[0].waveforms[0].nominal;
+    let step = result.time_step_s;
+    let mut largest: f64 = 0.0;
+    let mut worst: f64 = 0.0;
+    for (i, value) in samples.iter().enumerate() {
+        let t = i as f64 * step;
+        let exact =
+            10.0 * (ramp_response(t, 1.02e-6, 1.0, 100e-9) - ramp_response(t, 1e-6, 1.0, 100e-9));
+        largest = largest.max(exact.abs());
+        worst = worst.max((value - exact).abs());
+    }
+    assert!(
+        worst <= 2e-3 * largest,
+        "{worst:e} against a peak of {largest:e}"
+    );
+    // The window covers the settling, and the settling time is after the
+    // residue's peak (near one time constant).
+    let settling = result.reference.settling.as_ref().unwrap();
+    assert!(settling.after_falling_s.is_none());
+    let t = settling.after_rising_s.nominal.unwrap();
+    assert!(t > 1e-6 && t < 0.5 / result.frequency_hz, "{t}");
+}
+
+#[test]
+fn issue_14_a_single_edge_refuses_periodic_fields_and_two_durations() {
+    let refused = |fields: &str| {
+        let text = format!(
+            "name: x
+chain:
+  - difference_amp: {{r1: 1k ±0.1 %, r2: 20k ±0.1 %, r3: 1k ±0.1 %, r4: 20k ±0.1 %}}
+switching:
+  - name: edge
+    low: 0 V
+    high: 48 V
+{fields}"
+        );
+        parse_budget(&text, "inline.yaml").unwrap_err().to_string()
+    };
+    let both = refused("    single_edge: true\n    rise_time: 10 ns\n    slew_rate: 1 V/ns\n");
+    assert!(both.contains("both `rise_time` and `slew_rate`"), "{both}");
+    let periodic = refused("    single_edge: true\n    rise_time: 10 ns\n    frequency: 20 kHz\n");
+    assert!(
+        periodic.contains("a single edge has no switching frequency"),
+        "{periodic}"
+    );
+    let none = refused("    frequency: 20 kHz\n    duty: 50 %\n");
+    assert!(none.contains("the rising edge has no duration"), "{none}");
 }

@@ -402,10 +402,18 @@ pub struct RawSwitching {
     pub name: String,
     pub low: Scalar,
     pub high: Scalar,
-    pub frequency: Scalar,
-    pub duty: Scalar,
-    pub rise_time: Scalar,
-    pub fall_time: Scalar,
+    #[serde(default)]
+    pub single_edge: Option<bool>,
+    #[serde(default)]
+    pub frequency: Option<Scalar>,
+    #[serde(default)]
+    pub duty: Option<Scalar>,
+    #[serde(default)]
+    pub rise_time: Option<Scalar>,
+    #[serde(default)]
+    pub fall_time: Option<Scalar>,
+    #[serde(default)]
+    pub slew_rate: Option<Scalar>,
     #[serde(default)]
     pub harmonics_to: Option<Scalar>,
     #[serde(default)]

@@ -262,6 +262,10 @@ pub struct Switching {
     /// The converter's sampling window, when the residue is judged as the
     /// converter reads it.
     pub sample: Option<SampleWindow>,
+    /// One edge rather than a periodic waveform: the rising edge of
+    /// `waveform`, whose period is only the window shown after it (chosen
+    /// when judged, long enough for the residue to settle).
+    pub single_edge: bool,
 }
 
 /// An allowed error referred to the input.

@@ -662,6 +662,10 @@ mod tests {
         assert_relative_eq!(value("1 µA", Dimension::Current), 1e-6);
         assert_relative_eq!(value("1 uA", Dimension::Current), 1e-6);
         assert_relative_eq!(value("10 ms", Dimension::Time), 10e-3);
+        assert_relative_eq!(value("2 V/ns", Dimension::SlewRate), 2e9);
+        assert_relative_eq!(value("50 V/us", Dimension::SlewRate), 50e6);
+        assert_relative_eq!(value("1 kV/µs", Dimension::SlewRate), 1e9);
+        assert_relative_eq!(value("5 mV/ms", Dimension::SlewRate), 5.0);
         assert_relative_eq!(value("20 mS", Dimension::Conductance), 20e-3);
     }
 

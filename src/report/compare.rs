@@ -82,9 +82,9 @@ pub struct SwitchingFigures {
     pub measure: &'static str,
     /// The judged residue, volts referred to the input.
     pub residue_rti_v: f64,
-    /// The judged total's settling time after the rising and the falling
-    /// edge, seconds (null: does not settle); null without a band.
-    pub settles_s: Option<[Option<f64>; 2]>,
+    /// The settling times at the judged temperature (every total; the
+    /// judged one is `judged_on`'s); null without a band.
+    pub settling: Option<crate::verdict::Settling>,
     /// The requirement's margin, when a limit applies.
     pub margin_db: Option<Db>,
     /// Whether it is met, when a limit applies.
@@ -120,12 +120,7 @@ fn switching_rows(reports: &[(String, &Report)]) -> Vec<CompareSwitchingRow> {
                 temperature_k: s.judged_temperature_k,
                 measure: s.measure,
                 residue_rti_v: s.judged_rti_v,
-                settles_s: figures.settling.as_ref().map(|t| {
-                    [
-                        t.after_rising_s.judged(s.judged_on),
-                        t.after_falling_s.judged(s.judged_on),
-                    ]
-                }),
+                settling: figures.settling.clone(),
                 margin_db: s.requirement.as_ref().map(|r| r.margin_db),
                 met: s.requirement.as_ref().map(|r| r.met),
                 dominant: figures
@@ -322,12 +317,8 @@ pub fn render_compare_table(report: &CompareReport) -> String {
                     design.label.clone(),
                     judged_text(f.judged_on, f.temperature_k),
                     format!("{} {}", format_si(f.residue_rti_v, "V"), f.measure),
-                    f.settles_s.map_or("no band".into(), |[r, fall]| {
-                        format!(
-                            "{} / {}",
-                            super::switching::settling_text(r),
-                            super::switching::settling_text(fall)
-                        )
+                    f.settling.as_ref().map_or("no band".into(), |t| {
+                        super::switching::settling_pair(t, f.judged_on)
                     }),
                     margin_text(f.margin_db, f.met, design.status),
                     f.dominant.clone().unwrap_or_else(|| "none".into()),

@@ -3,7 +3,7 @@
 //! JSON) and a plot of them.
 
 use super::csv::{escape, number};
-use super::switching::{settling_text, switching_section};
+use super::switching::switching_section;
 use super::table::verdict_sentence;
 use super::{Render, Report, Verdict};
 use crate::plot::{plot_residue, PlotError, ResiduePlot, TimeCurve};
@@ -231,9 +231,10 @@ pub fn render_residue_svg(source: &ResidueSource) -> Result<String, PlotError> {
     let mut settling = Vec::new();
     if let Some(s) = &figures.settling {
         let judged = |t: &super::Totals<Option<f64>>| t.judged(r.judged_on);
+        let falling = s.after_falling_s.as_ref().map(judged);
         for (start, time) in [
             (0.0, judged(&s.after_rising_s)),
-            (fall_start, judged(&s.after_falling_s)),
+            (fall_start, falling.flatten()),
         ] {
             if let Some(t) = time.filter(|t| *t > 0.0) {
                 settling.push((start + t, format!("settled {}", format_si(t, "s"))));
@@ -241,6 +242,10 @@ pub fn render_residue_svg(source: &ResidueSource) -> Result<String, PlotError> {
         }
     }
     let (shaded, shaded_label) = match (r.blanking_s, &r.sample) {
+        (Some(b), _) if r.single_edge => (
+            vec![(0.0, b)],
+            Some(format!("blanking {}", format_si(b, "s"))),
+        ),
         (Some(b), _) => (
             vec![(0.0, b), (fall_start, fall_start + b)],
             Some(format!("blanking {}", format_si(b, "s"))),
@@ -265,16 +270,21 @@ pub fn render_residue_svg(source: &ResidueSource) -> Result<String, PlotError> {
         .settling
         .as_ref()
         .map(|s| {
-            format!(
-                " — settles {} / {}",
-                settling_text(s.after_rising_s.judged(r.judged_on)),
-                settling_text(s.after_falling_s.judged(r.judged_on))
-            )
+            let falling = s.after_falling_s.as_ref().map(|f| f.judged(r.judged_on));
+            if s.after_rising_s.judged(r.judged_on).is_none() && falling.flatten().is_none() {
+                " — does not settle".to_string()
+            } else {
+                format!(
+                    " — settles {}",
+                    super::switching::settling_pair(s, r.judged_on)
+                )
+            }
         })
         .unwrap_or_default();
     plot_residue(&ResiduePlot {
         title: format!("{}: residue RTI{settle_note}", r.source),
-        period_s: period,
+        // A single edge shows the half period after it.
+        period_s: if r.single_edge { period / 2.0 } else { period },
         common_mode: w.common_mode_v.clone(),
         curves,
         band_v: figures.settling.as_ref().map(|s| s.band_rti_v),

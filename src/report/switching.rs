@@ -12,6 +12,17 @@ use tabled::builder::Builder;
 
 /// What switches, in one line.
 pub fn waveform_line(result: &SwitchingResult) -> String {
+    if result.single_edge {
+        let step = result.high_v - result.low_v;
+        return format!(
+            "{}: common mode steps once from {} to {}, edge {} ({})\n",
+            result.source,
+            format_si(result.low_v, "V"),
+            format_si(result.high_v, "V"),
+            format_si(result.rise_time_s, "s"),
+            format_si(step.abs() / result.rise_time_s, "V/s"),
+        );
+    }
     format!(
         "{}: common mode switching {} to {} at {}, duty {}, rising edge {}, falling edge {}\n",
         result.source,
@@ -26,6 +37,27 @@ pub fn waveform_line(result: &SwitchingResult) -> String {
 
 /// How the residue was formed, in one line.
 pub fn method_line(result: &SwitchingResult) -> String {
+    if result.single_edge {
+        let period = 1.0 / result.frequency_hz;
+        let mut line = format!(
+            "residue over the {} after the edge (the rising edge of a square wave of period {}, {}), {} harmonics up to {}, sampled every {}, referred to the input through the chain's DC gain of {}\n",
+            format_si(period / 2.0, "s"),
+            format_si(period, "s"),
+            if result.flat_by_window_end == Some(true) {
+                "slow enough that the residue is flat to 0.1 % of its peak before the next edge"
+            } else {
+                "the longest tried: the residue is STILL MOVING at the end of the window, so what follows is what it has reached by then"
+            },
+            result.harmonics,
+            format_si(result.harmonics_to_hz, "Hz"),
+            format_si(result.time_step_s, "s"),
+            format_si(result.differential_gain, "V/V"),
+        );
+        if result.harmonics_to_hz < 1.0 / result.rise_time_s {
+            line.push_str("  the harmonics summed stop below one over the edge: the edge itself is smoothed, and the truncation bound below says by how much it could matter\n");
+        }
+        return line;
+    }
     format!(
         "residue over {} harmonics up to {}{}, sampled every {}, referred to the input through the chain's DC gain of {}\n",
         result.harmonics,
@@ -42,6 +74,16 @@ pub fn settling_text(time: Option<f64>) -> String {
         Some(0.0) => "never outside".to_string(),
         Some(t) => format_si(t, "s"),
         None => "does not settle".to_string(),
+    }
+}
+
+/// The judged total's settling after the rising and the falling edge,
+/// `a / b`, or after the one edge of a single edge.
+pub fn settling_pair(settling: &Settling, judgement: crate::model::Judgement) -> String {
+    let rising = settling_text(settling.after_rising_s.judged(judgement));
+    match &settling.after_falling_s {
+        Some(falling) => format!("{rising} / {}", settling_text(falling.judged(judgement))),
+        None => rising,
     }
 }
 
@@ -118,19 +160,24 @@ pub fn switching_section(result: &SwitchingResult) -> String {
 
 fn totals_table(result: &SwitchingResult, figures: &ResidueFigures) -> String {
     let mut table = Builder::default();
-    let mut header = vec![
-        "total".to_string(),
-        "peak RTI".to_string(),
-        "rms RTI".to_string(),
-        "peak RTO".to_string(),
-    ];
+    let mut header = vec!["total".to_string(), "peak RTI".to_string()];
+    if !result.single_edge {
+        header.push("rms RTI".into());
+    }
+    header.push("peak RTO".into());
     let judged_extra = result.blanking_s.is_some() || result.sample.is_some();
     if judged_extra {
         header.push(format!("{} RTI", result.measure));
     }
-    if figures.settling.is_some() {
-        header.push("settles after rising edge".into());
-        header.push("after falling edge".into());
+    if let Some(s) = &figures.settling {
+        if result.single_edge {
+            header.push("settles after the edge".into());
+        } else {
+            header.push("settles after rising edge".into());
+        }
+        if s.after_falling_s.is_some() {
+            header.push("after falling edge".into());
+        }
     }
     table.push_record(header);
     for judgement in TOTALS {
@@ -138,15 +185,22 @@ fn totals_table(result: &SwitchingResult, figures: &ResidueFigures) -> String {
         let mut row = vec![
             judgement.label().to_string(),
             format_si(pick(&figures.peak_rti_v), "V"),
-            format_si(pick(&figures.rms_rti_v), "V"),
-            format_si(pick(&figures.peak_rti_v) * result.differential_gain, "V"),
         ];
+        if !result.single_edge {
+            row.push(format_si(pick(&figures.rms_rti_v), "V"));
+        }
+        row.push(format_si(
+            pick(&figures.peak_rti_v) * result.differential_gain,
+            "V",
+        ));
         if judged_extra {
             row.push(format_si(pick(&figures.judged_rti_v), "V"));
         }
         if let Some(s) = &figures.settling {
             row.push(settling_text(s.after_rising_s.judged(judgement)));
-            row.push(settling_text(s.after_falling_s.judged(judgement)));
+            if let Some(falling) = &s.after_falling_s {
+                row.push(settling_text(falling.judged(judgement)));
+            }
         }
         table.push_record(row);
     }
@@ -176,9 +230,9 @@ fn temperature_line(result: &SwitchingResult, end: &ResidueFigures) -> String {
     );
     if let Some(s) = &end.settling {
         out.push_str(&format!(
-            "; settles (worst case) {} after the rising edge, {} after the falling",
-            settling_text(s.after_rising_s.worst_case),
-            settling_text(s.after_falling_s.worst_case)
+            "; settles ({}) {}",
+            result.judged_on.label(),
+            settling_pair(s, result.judged_on)
         ));
     }
     out.push('\n');

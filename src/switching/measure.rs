@@ -47,6 +47,16 @@ impl Measure {
         Measure::AfterBlanking { judged }
     }
 
+    /// The measure for a single edge, the rising edge of `waveform`: the
+    /// peak from `blanking_s` after it to the half period (the falling
+    /// edge of the slow square wave it is judged as is not judged).
+    pub fn after_single_edge(waveform: &Trapezoid, blanking_s: f64) -> Measure {
+        let (start, end) = waveform.interval_after(Edge::Rising);
+        Measure::AfterBlanking {
+            judged: [(start + blanking_s, end), (end, end)],
+        }
+    }
+
     /// The measure for a sampling window of `waveform`.
     pub fn window(waveform: &Trapezoid, sample: &SampleWindow) -> Measure {
         let centre = waveform.edge_start_s(sample.after) + sample.delay_s;
@@ -62,6 +72,7 @@ impl Measure {
             Measure::Rms => "rms",
             Measure::Peak => "peak",
             Measure::PeakToPeak => "peak-to-peak",
+            Measure::AfterBlanking { judged } if judged[0].0 == 0.0 => "peak after the edge",
             Measure::AfterBlanking { .. } => "peak after blanking",
             Measure::WindowMean { .. } => "mean over the sampling window",
         }

@@ -11,7 +11,7 @@ use crate::quantity::{format_fraction, format_si, AmplitudeForm};
 use crate::switching::{
     analyse_residue, common_mode_samples, corner_residue, corner_values, harmonic_count,
     rss_envelope, sample_count, settling_time, worst_case_envelope, Measure, Residue,
-    ResidueAnalysis,
+    ResidueAnalysis, MAX_HARMONICS,
 };
 use serde::Serialize;
 
@@ -23,8 +23,9 @@ pub struct Settling {
     pub band_rti_v: f64,
     /// After the start of the rising edge, seconds.
     pub after_rising_s: Totals<Option<f64>>,
-    /// After the start of the falling edge, seconds.
-    pub after_falling_s: Totals<Option<f64>>,
+    /// After the start of the falling edge, seconds; null for a single
+    /// edge.
+    pub after_falling_s: Option<Totals<Option<f64>>>,
 }
 
 /// One parameter's share of a switching residue.
@@ -89,6 +90,13 @@ pub struct SampleFigures {
 pub struct SwitchingResult {
     /// The source's name.
     pub source: String,
+    /// One edge rather than a periodic waveform: the rising edge of a
+    /// square wave of `frequency_hz`, slow enough that the residue settles
+    /// before its next edge; the figures cover the half period after it.
+    pub single_edge: bool,
+    /// For a single edge, whether the residue was flat (to 0.1 % of its
+    /// peak) by the end of the window shown; null for a periodic source.
+    pub flat_by_window_end: Option<bool>,
     /// The low level, volts.
     pub low_v: f64,
     /// The high level, volts.
@@ -169,6 +177,9 @@ pub struct JudgedSwitching {
 pub fn measure_of(source: &Switching) -> Measure {
     if let Some(sample) = &source.sample {
         return Measure::window(&source.waveform, sample);
+    }
+    if source.single_edge {
+        return Measure::after_single_edge(&source.waveform, source.blanking_s.unwrap_or(0.0));
     }
     if let Some(blanking) = source.blanking_s {
         return Measure::after_blanking(&source.waveform, blanking);
@@ -273,7 +284,7 @@ impl AtTemperature {
         Some(Settling {
             band_rti_v: band,
             after_rising_s: after(Edge::Rising),
-            after_falling_s: after(Edge::Falling),
+            after_falling_s: (!source.single_edge).then(|| after(Edge::Falling)),
         })
     }
 
@@ -377,6 +388,65 @@ fn analysed(
     })
 }
 
+/// The harmonics a single edge's window is searched with (its slow tail,
+/// not its edge, decides whether the residue has settled).
+const SEARCH_HARMONICS: f64 = 2048.0;
+
+/// How many times the window may be doubled.
+const MAX_DOUBLINGS: u32 = 24;
+
+/// The residue counts as flat when it moves by less than this share of its
+/// peak over the last quarter of the window.
+const FLAT: f64 = 1e-3;
+
+/// A single edge's source with the period of the slow square wave it is
+/// judged as: doubled from the first try until the residue's linear-bound
+/// envelope is flat over the last quarter of the half period after the
+/// edge (so what is left of it when the next edge comes is below 0.1 % of
+/// its peak), and long enough for the blanking or the sampling window.
+/// The search runs with few harmonics; the judgement then sums up to the
+/// stated frequency (or ten over the edge), within [`MAX_HARMONICS`]
+/// over the period chosen. Also returns whether the residue was flat.
+fn single_edge_window(
+    budget: &Budget,
+    source: &Switching,
+    delta_t: f64,
+) -> Result<(Switching, bool), EngineError> {
+    let mut trial = source.clone();
+    let needed = source
+        .blanking_s
+        .unwrap_or(0.0)
+        .max(source.sample.map_or(0.0, |s| s.delay_s + s.width_s / 2.0));
+    while trial.waveform.period_s() / 2.0 < 2.0 * needed {
+        trial.waveform.frequency_hz /= 2.0;
+    }
+    let mut flat = false;
+    for _ in 0..MAX_DOUBLINGS {
+        let mut search = trial.clone();
+        search.harmonics_to_hz = SEARCH_HARMONICS * trial.waveform.frequency_hz;
+        let analysis = analyse_residue(budget, &search, delta_t)?;
+        let envelope = worst_case_envelope(&analysis);
+        let half = envelope.len() / 2;
+        let peak = envelope[..half].iter().copied().fold(0.0, f64::max);
+        let tail = &envelope[3 * half / 4..half];
+        let (low, high) = tail
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &v| {
+                (l.min(v), h.max(v))
+            });
+        if peak == 0.0 || high - low <= FLAT * peak {
+            flat = true;
+            break;
+        }
+        trial.waveform.frequency_hz /= 2.0;
+    }
+    let room = MAX_HARMONICS as f64 * trial.waveform.frequency_hz;
+    trial.harmonics_to_hz = source.harmonics_to_hz.min(room);
+    trial.harmonics_to_stated =
+        source.harmonics_to_stated && trial.harmonics_to_hz == source.harmonics_to_hz;
+    Ok((trial, flat))
+}
+
 /// Judge one switching source at the temperature shown (`shown`: excursion
 /// and kelvin) and at the ends of the range (`ends`), the worse end kept.
 pub(super) fn judge_switching(
@@ -386,6 +456,13 @@ pub(super) fn judge_switching(
     ends: &[(f64, f64)],
     requirement: Option<&Requirement>,
 ) -> Result<JudgedSwitching, EngineError> {
+    let (chosen, flat) = if source.single_edge {
+        let (chosen, flat) = single_edge_window(budget, source, shown.0)?;
+        (chosen, Some(flat))
+    } else {
+        (source.clone(), None)
+    };
+    let source = &chosen;
     let measure = measure_of(source);
     let judgement = super::judged_on(requirement);
     let shown = analysed(budget, source, &measure, shown.0, shown.1)?;
@@ -426,6 +503,8 @@ pub(super) fn judge_switching(
     waveforms.extend(worse.as_ref().map(AtTemperature::waveforms));
     let result = SwitchingResult {
         source: source.name.clone(),
+        single_edge: source.single_edge,
+        flat_by_window_end: flat,
         low_v: w.low_v,
         high_v: w.high_v,
         frequency_hz: w.frequency_hz,
@@ -451,9 +530,25 @@ pub(super) fn judge_switching(
         judged_rti_v,
         requirement: check.and_then(|c| super::checks::outcome(requirement, vec![c])),
     };
+    // A single edge shows the half period after it, the window judged.
+    let mut common_mode = common_mode_samples(source);
+    if source.single_edge {
+        let half = common_mode.len() / 2;
+        common_mode.truncate(half);
+        for w in &mut waveforms {
+            for samples in [
+                &mut w.nominal,
+                &mut w.worst_corner,
+                &mut w.worst_case,
+                &mut w.rss,
+            ] {
+                samples.truncate(half);
+            }
+        }
+    }
     Ok(JudgedSwitching {
         result,
-        common_mode: common_mode_samples(source),
+        common_mode,
         waveforms,
     })
 }
@@ -484,13 +579,19 @@ fn switching_check(
     };
     let mut achieved = format!("{what} {}", describe_fraction_or_volts(achieved_v, limit));
     if let Some(s) = settling {
-        let pick = |t: &Totals<Option<f64>>| t.judged(judgement);
-        let text = |t: Option<f64>| t.map_or("does not settle".to_string(), |t| format_si(t, "s"));
-        achieved.push_str(&format!(
-            "; settles {} after the rising edge, {} after the falling",
-            text(pick(&s.after_rising_s)),
-            text(pick(&s.after_falling_s))
-        ));
+        let phrase = |t: Option<f64>, after: &str| match t {
+            Some(t) => format!("settles {} after {after}", format_si(t, "s")),
+            None => format!("does not settle after {after}"),
+        };
+        let rising = s.after_rising_s.judged(judgement);
+        match &s.after_falling_s {
+            Some(falling) => achieved.push_str(&format!(
+                "; {}, {}",
+                phrase(rising, "the rising edge"),
+                phrase(falling.judged(judgement), "the falling edge")
+            )),
+            None => achieved.push_str(&format!("; {}", phrase(rising, "the edge"))),
+        }
     }
     Check {
         kind: CheckKind::SwitchingError {

@@ -11,6 +11,11 @@ use crate::switching::MAX_HARMONICS;
 /// past which its harmonics fall at 40 dB per decade.
 pub const DEFAULT_HARMONICS_PER_EDGE: f64 = 10.0;
 
+/// A single edge's first window: this many edge durations per period of
+/// the slow square wave it is judged as (doubled until the residue is
+/// flat before the next edge).
+pub const SINGLE_EDGE_FIRST_PERIODS: f64 = 400.0;
+
 /// The most switching sources one budget may name: each is thousands of
 /// solves at up to three temperatures.
 pub const MAX_SWITCHING: usize = 16;
@@ -59,7 +64,7 @@ impl Validator<'_> {
         };
         let low = level(self, &raw.low, "low");
         let high = level(self, &raw.high, "high");
-        let time = |v: &mut Self, scalar, field: &str| {
+        let time = |v: &mut Self, scalar: &crate::budget::raw::Scalar, field: &str| {
             v.quantity(
                 scalar,
                 &format!("{path}.{field}"),
@@ -69,28 +74,21 @@ impl Validator<'_> {
             )
             .map(|q| q.value)
         };
-        let frequency = self
-            .quantity(
-                &raw.frequency,
-                &format!("{path}.frequency"),
-                Dimension::Frequency,
-                Range::Positive,
-                false,
-            )
-            .map(|q| q.value);
-        let duty = self
-            .quantity(
-                &raw.duty,
-                &format!("{path}.duty"),
-                Dimension::Fraction,
-                Range::Positive,
-                false,
-            )
-            .map(|q| q.value);
-        let rise = time(self, &raw.rise_time, "rise_time");
-        let fall = time(self, &raw.fall_time, "fall_time");
-        let (low, high, frequency, duty, rise, fall) =
-            (low?, high?, frequency?, duty?, rise?, fall?);
+        let single = raw.single_edge.unwrap_or(false);
+        let slew = match &raw.slew_rate {
+            Some(scalar) => Some(
+                self.quantity(
+                    scalar,
+                    &format!("{path}.slew_rate"),
+                    Dimension::SlewRate,
+                    Range::Positive,
+                    false,
+                )?
+                .value,
+            ),
+            None => None,
+        };
+        let (low, high) = (low?, high?);
         if low == high {
             self.problem(
                 &format!("{path}.high"),
@@ -99,14 +97,117 @@ impl Validator<'_> {
             );
             return None;
         }
+        // An edge's duration: as written, or the step over the slew rate.
+        let edge = |v: &mut Self,
+                    given: &Option<crate::budget::raw::Scalar>,
+                    field: &str,
+                    which: &str| {
+            match (given, slew) {
+                (Some(_), Some(_)) => {
+                    v.problem(
+                        &format!("{path}.{field}"),
+                        format!("both `{field}` and `slew_rate` are given; the {which} edge has one duration"),
+                        format!("keep `{field}` (the edge's 0 % to 100 % time) or `slew_rate` (its dV/dt), not both"),
+                    );
+                    None
+                }
+                (Some(scalar), None) => time(v, scalar, field),
+                (None, Some(rate)) => Some((high - low).abs() / rate),
+                (None, None) => {
+                    v.problem(
+                        path,
+                        format!("the {which} edge has no duration"),
+                        format!("add `{field}: 50 ns` (0 % to 100 %) or `slew_rate: 2 V/ns`"),
+                    );
+                    None
+                }
+            }
+        };
+        if single {
+            for (given, field, what) in [
+                (raw.frequency.is_some(), "frequency", "switching frequency"),
+                (raw.duty.is_some(), "duty", "duty cycle"),
+                (raw.fall_time.is_some(), "fall_time", "falling edge"),
+            ] {
+                if given {
+                    self.problem(
+                        &format!("{path}.{field}"),
+                        format!("a single edge has no {what}"),
+                        format!(
+                            "remove `{field}`, or drop `single_edge: true` for a periodic waveform"
+                        ),
+                    );
+                }
+            }
+            if raw.frequency.is_some() || raw.duty.is_some() || raw.fall_time.is_some() {
+                return None;
+            }
+        }
+        let needed = |v: &mut Self,
+                      given: &Option<crate::budget::raw::Scalar>,
+                      field: &str,
+                      example: &str| {
+            if given.is_none() {
+                v.problem(
+                    path,
+                    format!("a periodic switching source needs its `{field}`"),
+                    format!("add `{field}: {example}`, or `single_edge: true` for one edge"),
+                );
+            }
+        };
+        if !single {
+            needed(self, &raw.frequency, "frequency", "20 kHz");
+            needed(self, &raw.duty, "duty", "50 %");
+        }
+        let frequency = match &raw.frequency {
+            Some(scalar) => self
+                .quantity(
+                    scalar,
+                    &format!("{path}.frequency"),
+                    Dimension::Frequency,
+                    Range::Positive,
+                    false,
+                )
+                .map(|q| q.value),
+            None => None,
+        };
+        let duty = match &raw.duty {
+            Some(scalar) => self
+                .quantity(
+                    scalar,
+                    &format!("{path}.duty"),
+                    Dimension::Fraction,
+                    Range::Positive,
+                    false,
+                )
+                .map(|q| q.value),
+            None => None,
+        };
+        let rise = edge(self, &raw.rise_time, "rise_time", "rising");
+        let fall = if single {
+            rise
+        } else {
+            edge(self, &raw.fall_time, "fall_time", "falling")
+        };
+        let rise = rise?;
+        let fall = fall?;
+        // A single edge is judged as the rising edge of a slow square wave
+        // whose period the judgement chooses; this one is its first try.
+        let (frequency, duty) = if single {
+            (1.0 / (SINGLE_EDGE_FIRST_PERIODS * rise), 0.5)
+        } else {
+            (frequency?, duty?)
+        };
         if duty >= 1.0 {
+            let text = raw.duty.as_ref().map_or("", |d| d.0.trim());
             self.problem(
                 &format!("{path}.duty"),
-                format!("a duty cycle of {} leaves no time at the low level", raw.duty.0.trim()),
+                format!("a duty cycle of {text} leaves no time at the low level"),
                 "give the share of the period between the edges' 50 % points, above 0 % and below 100 %",
             );
             return None;
         }
+        let duty_text = raw.duty.as_ref().map_or("50 %", |d| d.0.trim());
         let waveform = Trapezoid {
             low_v: low,
             high_v: high,
@@ -123,7 +224,7 @@ impl Validator<'_> {
                 format!(
                     "at {} and {} duty, the {} level lasts {} between the edges' 50 % points, less than half the two edges together ({} and {}, so {})",
                     format_si(frequency, "Hz"),
-                    raw.duty.0.trim(),
+                    duty_text,
                     if duty * period < edges { "high" } else { "low" },
                     format_si((duty * period).min((1.0 - duty) * period), "s"),
                     format_si(rise, "s"),
@@ -149,7 +250,9 @@ impl Validator<'_> {
             None => default_to,
         };
         let harmonics = (harmonics_to / frequency).floor();
-        if harmonics > MAX_HARMONICS as f64 {
+        // A single edge's window (and so its harmonics) is chosen when it is
+        // judged, within the bound.
+        if harmonics > MAX_HARMONICS as f64 && !single {
             let field = if raw.harmonics_to.is_some() {
                 format!("{path}.harmonics_to")
             } else {
@@ -202,7 +305,7 @@ impl Validator<'_> {
             Some(scalar) => Some(time(self, scalar, "blanking")?),
             None => None,
         };
-        if let Some(blanking) = blanking {
+        if let (Some(blanking), false) = (blanking, single) {
             let shorter = waveform
                 .interval_after(Edge::Rising)
                 .1
@@ -233,7 +336,16 @@ impl Validator<'_> {
                     delay_s: delay?,
                     width_s: width?,
                 };
+                if single && after == Edge::Falling {
+                    self.problem(
+                        &format!("{path}.sample.after"),
+                        "a single edge has no falling edge to sample after",
+                        "write `after: rising` (the single edge is the one from `low` to `high`)",
+                    );
+                    return None;
+                }
                 let (start, end) = waveform.interval_after(after);
+                let end = if single { f64::INFINITY } else { end };
                 let from = start + sample.delay_s - sample.width_s / 2.0;
                 let to = start + sample.delay_s + sample.width_s / 2.0;
                 if from < start || to > end {
@@ -267,6 +379,7 @@ impl Validator<'_> {
             let refused = match (limit.form, &sample, blanking) {
                 (Some(AmplitudeForm::PeakToPeak), Some(_), _) => Some("a sampling window's mean is one value per sample; it has no peak-to-peak swing"),
                 (Some(AmplitudeForm::Rms | AmplitudeForm::PeakToPeak), None, Some(_)) => Some("after blanking, the limit bounds the residue at every instant judged, a peak figure"),
+                (Some(AmplitudeForm::Rms | AmplitudeForm::PeakToPeak), None, None) if single => Some("a single edge has no period to take an rms or peak-to-peak value over; the limit bounds the residue at every instant after the edge"),
                 _ => None,
             };
             if let Some(why) = refused {
@@ -286,6 +399,7 @@ impl Validator<'_> {
             max_error,
             blanking_s: blanking,
             sample,
+            single_edge: single,
         })
     }
 }
