@@ -32,6 +32,16 @@ switching:
     ))
 }
 
+/// A 1 V trapezoid at 10 kHz with 100 ns edges: 50 time constants of the
+/// RC legs at each level, so each edge's residue has died before the next.
+const ONE_VOLT_AT_10_KHZ: &str = "  - name: edge
+    low: 0 V
+    high: 1 V
+    frequency: 10 kHz
+    duty: 50 %
+    rise_time: 100 ns
+    fall_time: 100 ns";
+
 /// The RC leg's response to the trapezoid's rising ramp (slope `V/t_r`
 /// from 0 at t = 0), solved by hand: during the ramp
 /// `v = a(t − τ(1 − e^{−t/τ}))`, after it `v = V − (aτ)(e^{t_r/τ} − 1)e^{−t/τ}`
@@ -56,16 +66,7 @@ fn ramp_response(t: f64, tau: f64, step: f64, rise: f64) -> f64 {
 #[test]
 fn issue_14_rc_mismatch_residue_matches_its_closed_form() {
     let delta = 0.02;
-    let budget = rc_pair(
-        delta,
-        "  - name: edge
-    low: 0 V
-    high: 1 V
-    frequency: 10 kHz
-    duty: 50 %
-    rise_time: 100 ns
-    fall_time: 100 ns",
-    );
+    let budget = rc_pair(delta, ONE_VOLT_AT_10_KHZ);
     let source = &budget.switching[0];
     let analysis = analyse_residue(&budget, source, 0.0).unwrap();
     let samples = &analysis.nominal.samples;
@@ -116,16 +117,7 @@ fn issue_14_rc_mismatch_residue_matches_its_closed_form() {
 #[test]
 fn issue_14_settling_time_matches_the_closed_form_crossing() {
     let delta = 0.02;
-    let budget = rc_pair(
-        delta,
-        "  - name: edge
-    low: 0 V
-    high: 1 V
-    frequency: 10 kHz
-    duty: 50 %
-    rise_time: 100 ns
-    fall_time: 100 ns",
-    );
+    let budget = rc_pair(delta, ONE_VOLT_AT_10_KHZ);
     let source = &budget.switching[0];
     let analysis = analyse_residue(&budget, source, 0.0).unwrap();
     let band = 1e-4;

@@ -44,16 +44,46 @@ pub struct DesignFigures {
     pub dominant: Option<String>,
 }
 
-/// One interference source across the designs.
+/// One source across the designs: an interference source with each
+/// design's [`DesignFigures`], or a switching source with its
+/// [`SwitchingFigures`].
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct CompareRow {
+pub struct CompareRow<F = DesignFigures> {
     /// The source's name.
     pub source: String,
-    /// Its frequency, Hz.
+    /// Its frequency (a switching source's switching frequency), Hz.
     pub frequency_hz: f64,
     /// One entry per design, in design order; null where a design has no
     /// such source.
-    pub designs: Vec<Option<DesignFigures>>,
+    pub designs: Vec<Option<F>>,
+}
+
+impl<F: Clone> CompareRow<F> {
+    /// Put design `index`'s figures in the row of `source` at
+    /// `frequency_hz` among `rows`, starting a row when there is none.
+    fn place(
+        rows: &mut Vec<CompareRow<F>>,
+        (source, frequency_hz): (&str, f64),
+        (index, designs): (usize, usize),
+        figures: F,
+    ) {
+        let same = |row: &CompareRow<F>| {
+            row.source == source
+                && (row.frequency_hz - frequency_hz).abs() <= 1e-9 * frequency_hz.max(1.0)
+        };
+        let at = match rows.iter().position(same) {
+            Some(at) => at,
+            None => {
+                rows.push(CompareRow {
+                    source: source.to_string(),
+                    frequency_hz,
+                    designs: vec![None; designs],
+                });
+                rows.len() - 1
+            }
+        };
+        rows[at].designs[index] = Some(figures);
+    }
 }
 
 /// Everything `cmrr compare` reports.
@@ -68,7 +98,7 @@ pub struct CompareReport {
     pub rows: Vec<CompareRow>,
     /// One row per switching source (matched by name and frequency), in
     /// order of first appearance.
-    pub switching_rows: Vec<CompareSwitchingRow>,
+    pub switching_rows: Vec<CompareRow<SwitchingFigures>>,
 }
 
 /// One design's residue for one switching source, as its verdict judges it.
@@ -93,21 +123,9 @@ pub struct SwitchingFigures {
     pub dominant: Option<String>,
 }
 
-/// One switching source across the designs.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct CompareSwitchingRow {
-    /// The source's name.
-    pub source: String,
-    /// Its switching frequency, Hz.
-    pub frequency_hz: f64,
-    /// One entry per design, in design order; null where a design has no
-    /// such source.
-    pub designs: Vec<Option<SwitchingFigures>>,
-}
-
 /// The designs' switching sources side by side.
-fn switching_rows(reports: &[(String, &Report)]) -> Vec<CompareSwitchingRow> {
-    let mut rows: Vec<CompareSwitchingRow> = Vec::new();
+fn switching_rows(reports: &[(String, &Report)]) -> Vec<CompareRow<SwitchingFigures>> {
+    let mut rows = Vec::new();
     for (index, (_, report)) in reports.iter().enumerate() {
         for s in &report.switching {
             let figures = s
@@ -128,22 +146,12 @@ fn switching_rows(reports: &[(String, &Report)]) -> Vec<CompareSwitchingRow> {
                     .first()
                     .map(|c| format!("{} ({})", c.name, c.stage)),
             };
-            let same = |row: &CompareSwitchingRow| {
-                row.source == s.source
-                    && (row.frequency_hz - s.frequency_hz).abs() <= 1e-9 * s.frequency_hz
-            };
-            let at = match rows.iter().position(same) {
-                Some(at) => at,
-                None => {
-                    rows.push(CompareSwitchingRow {
-                        source: s.source.clone(),
-                        frequency_hz: s.frequency_hz,
-                        designs: vec![None; reports.len()],
-                    });
-                    rows.len() - 1
-                }
-            };
-            rows[at].designs[index] = Some(judged);
+            CompareRow::place(
+                &mut rows,
+                (&s.source, s.frequency_hz),
+                (index, reports.len()),
+                judged,
+            );
         }
     }
     rows
@@ -191,23 +199,12 @@ pub fn build_compare_report(reports: &[(String, &Report)]) -> CompareReport {
                     .first()
                     .map(|c| format!("{} ({})", c.name, c.stage)),
             };
-            let same = |row: &CompareRow| {
-                row.source == result.source
-                    && (row.frequency_hz - result.frequency_hz).abs()
-                        <= 1e-9 * result.frequency_hz.max(1.0)
-            };
-            let row = match rows.iter().position(same) {
-                Some(at) => &mut rows[at],
-                None => {
-                    rows.push(CompareRow {
-                        source: result.source.clone(),
-                        frequency_hz: result.frequency_hz,
-                        designs: vec![None; reports.len()],
-                    });
-                    rows.last_mut().expect("just pushed")
-                }
-            };
-            row.designs[index] = Some(figures);
+            CompareRow::place(
+                &mut rows,
+                (&result.source, result.frequency_hz),
+                (index, reports.len()),
+                figures,
+            );
         }
     }
     CompareReport {
@@ -263,58 +260,50 @@ pub fn render_compare_table(report: &CompareReport) -> String {
         } else {
             format_si(row.frequency_hz, "Hz")
         };
-        out.push_str(&format!("\n{} at {}\n", row.source, frequency));
-        let mut table = Builder::default();
-        table.push_record([
-            "design",
+        let title = format!("{} at {}", row.source, frequency);
+        let header = [
             "judged on",
             "CMRR",
             "error RTI",
             "margin",
             "dominant contributor",
-        ]);
-        for (design, figures) in report.designs.iter().zip(&row.designs) {
-            match figures {
-                Some(f) => table.push_record([
-                    design.label.clone(),
+        ];
+        out.push_str(&side_by_side(
+            &report.designs,
+            &title,
+            header,
+            row,
+            |f, design| {
+                [
                     judged_text(f.judged_on, f.temperature_k),
                     format_db(f.cmrr_db.0),
                     describe_volts(f.error_rti_v, f.amplitude_form),
                     margin_text(f.margin_db, f.met, design.status),
                     f.dominant.clone().unwrap_or_else(|| "none".into()),
-                ]),
-                None => table.push_record([
-                    design.label.clone(),
-                    "—".into(),
-                    "—".into(),
-                    "—".into(),
-                    "no such source".into(),
-                    "—".into(),
-                ]),
-            }
-        }
-        out.push_str(&super::layout::styled(table, 2..4));
-        out.push('\n');
+                ]
+            },
+        ));
     }
     for row in &report.switching_rows {
-        out.push_str(&format!(
-            "\n{} (switching at {})\n",
+        let title = format!(
+            "{} (switching at {})",
             row.source,
             format_si(row.frequency_hz, "Hz")
-        ));
-        let mut table = Builder::default();
-        table.push_record([
-            "design",
+        );
+        let header = [
             "judged on",
             "residue RTI",
             "settles after rising / falling edge",
             "margin",
             "dominant contributor",
-        ]);
-        for (design, figures) in report.designs.iter().zip(&row.designs) {
-            match figures {
-                Some(f) => table.push_record([
-                    design.label.clone(),
+        ];
+        out.push_str(&side_by_side(
+            &report.designs,
+            &title,
+            header,
+            row,
+            |f, design| {
+                [
                     judged_text(f.judged_on, f.temperature_k),
                     format!("{} {}", format_si(f.residue_rti_v, "V"), f.measure),
                     f.settling.as_ref().map_or("no band".into(), |t| {
@@ -322,21 +311,32 @@ pub fn render_compare_table(report: &CompareReport) -> String {
                     }),
                     margin_text(f.margin_db, f.met, design.status),
                     f.dominant.clone().unwrap_or_else(|| "none".into()),
-                ]),
-                None => table.push_record([
-                    design.label.clone(),
-                    "—".into(),
-                    "—".into(),
-                    "—".into(),
-                    "no such source".into(),
-                    "—".into(),
-                ]),
-            }
-        }
-        out.push_str(&super::layout::styled(table, 2..4));
-        out.push('\n');
+                ]
+            },
+        ));
     }
     out
+}
+
+/// One source's table: a line per design, its cells from `cells` (dashes
+/// where the design has no such source).
+fn side_by_side<F>(
+    designs: &[Design],
+    title: &str,
+    header: [&str; 5],
+    row: &CompareRow<F>,
+    cells: impl Fn(&F, &Design) -> [String; 5],
+) -> String {
+    let mut table = Builder::default();
+    table.push_record(std::iter::once("design").chain(header));
+    for (design, figures) in designs.iter().zip(&row.designs) {
+        let cells = match figures {
+            Some(f) => cells(f, design),
+            None => ["—", "—", "—", "no such source", "—"].map(String::from),
+        };
+        table.push_record(std::iter::once(design.label.clone()).chain(cells));
+    }
+    format!("\n{title}\n{}\n", super::layout::styled(table, 2..4))
 }
 
 /// The comparison as CSV: one row per source and design.

@@ -107,7 +107,8 @@ fn write_rows(
     }
 }
 
-fn push_line(out: &mut String, lead: &[String; 4], fields: &[String; 9]) {
+/// One CSV line: the lead columns, then the fields, each escaped.
+pub(crate) fn push_line(out: &mut String, lead: &[String; 4], fields: &[String; 9]) {
     let line: Vec<String> = lead
         .iter()
         .chain(fields.iter())

@@ -3,7 +3,7 @@
 //! judged measure, settling after each edge) and its check; and the same
 //! as CSV rows.
 
-use super::csv::{escape, number};
+use super::csv::{number, push_line};
 use super::layout::styled;
 use super::table::celsius;
 use crate::quantity::{format_db, format_fraction, format_si};
@@ -145,15 +145,7 @@ pub fn switching_section(result: &SwitchingResult) -> String {
             if outcome.met { "met" } else { "MISSED" },
             format_db(outcome.margin_db.0)
         ));
-        for check in &outcome.checks {
-            out.push_str(&format!(
-                "  {}: {} ({} by {})\n",
-                check.limit,
-                check.achieved,
-                if check.met { "met" } else { "MISSED" },
-                format_db(check.margin_db.0.abs())
-            ));
-        }
+        out.push_str(&super::table::check_lines(outcome));
     }
     out
 }
@@ -251,15 +243,7 @@ pub fn switching_csv_rows(out: &mut String, result: &SwitchingResult) {
     ];
     let gain = result.differential_gain;
     let figures = &result.reference;
-    let mut push = |fields: [String; 9]| {
-        let line: Vec<String> = lead
-            .iter()
-            .chain(fields.iter())
-            .map(|f| escape(f))
-            .collect();
-        out.push_str(&line.join(","));
-        out.push('\n');
-    };
+    let mut push = |fields: [String; 9]| push_line(out, &lead, &fields);
     for row in &figures.contributions {
         let kind = if row.name == "nominal imbalance" {
             "systematic"

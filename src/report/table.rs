@@ -287,16 +287,26 @@ fn requirement_lines(outcome: &RequirementOutcome, judged: &JudgedFigure) -> Str
         if outcome.met { "met" } else { "MISSED" },
         format_db(outcome.margin_db.0)
     );
-    for check in &outcome.checks {
-        out.push_str(&format!(
-            "  {}: {} ({} by {})\n",
-            check.limit,
-            check.achieved,
-            if check.met { "met" } else { "MISSED" },
-            format_db(check.margin_db.0.abs())
-        ));
-    }
+    out.push_str(&check_lines(outcome));
     out
+}
+
+/// Each check of an outcome on its own indented line, with whether it is
+/// met and by how much.
+pub(crate) fn check_lines(outcome: &RequirementOutcome) -> String {
+    outcome
+        .checks
+        .iter()
+        .map(|check| {
+            format!(
+                "  {}: {} ({} by {})\n",
+                check.limit,
+                check.achieved,
+                if check.met { "met" } else { "MISSED" },
+                format_db(check.margin_db.0.abs())
+            )
+        })
+        .collect()
 }
 
 /// The verdict in one line, as every command prints it.
