@@ -446,3 +446,32 @@ switching:
     let none = refused("    frequency: 20 kHz\n    duty: 50 %\n");
     assert!(none.contains("the rising edge has no duration"), "{none}");
 }
+
+/// A limit as a share of the reading (issue 14: "a limit in volts, % of
+/// full scale or of the shunt's reading"): 2 % of a 10 mV reading is a
+/// 200 µV band, whatever the full scale.
+#[test]
+fn issue_14_a_limit_can_be_a_share_of_the_reading() {
+    let budget = rc_pair(
+        0.02,
+        "  - name: edge
+    low: 0 V
+    high: 1 V
+    frequency: 10 kHz
+    duty: 50 %
+    rise_time: 100 ns
+    fall_time: 100 ns
+    max_error: 2 %
+    reading: 10 mV",
+    );
+    let report = judge(&budget).unwrap();
+    let s = &report.switching[0];
+    let band = s.reference.settling.as_ref().unwrap().band_rti_v;
+    assert!((band - 200e-6).abs() < 1e-15, "{band}");
+    let check = &s.requirement.as_ref().unwrap().checks[0];
+    assert!(
+        check.limit.contains("of the 10.0 mV reading"),
+        "{}",
+        check.limit
+    );
+}

@@ -419,6 +419,8 @@ pub struct RawSwitching {
     #[serde(default)]
     pub max_error: Option<Scalar>,
     #[serde(default)]
+    pub reading: Option<Scalar>,
+    #[serde(default)]
     pub blanking: Option<Scalar>,
     #[serde(default)]
     pub sample: Option<RawSample>,

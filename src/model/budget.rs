@@ -281,6 +281,15 @@ pub enum ErrorLimit {
         /// The full-scale differential input in volts.
         full_scale_volts: f64,
     },
+    /// A fraction of a stated reading (peak error over the reading): a
+    /// switching source's allowed residue as a share of what the sensor
+    /// reads then, e.g. 1 % of a shunt's 20 mV.
+    OfReading {
+        /// The fraction.
+        fraction: f64,
+        /// The reading, volts referred to the input.
+        reading_volts: f64,
+    },
 }
 
 impl ErrorLimit {
@@ -302,6 +311,10 @@ impl ErrorLimit {
                 fraction,
                 full_scale_volts,
             } => Some(fraction * full_scale_volts / source.peak_volts()),
+            ErrorLimit::OfReading {
+                fraction,
+                reading_volts,
+            } => Some(fraction * reading_volts / source.peak_volts()),
         }
     }
 
@@ -311,7 +324,7 @@ impl ErrorLimit {
     pub fn form(&self) -> Option<AmplitudeForm> {
         match self {
             ErrorLimit::Volts(limit) => limit.form,
-            ErrorLimit::OfFullScale { .. } => None,
+            ErrorLimit::OfFullScale { .. } | ErrorLimit::OfReading { .. } => None,
         }
     }
 }

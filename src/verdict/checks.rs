@@ -123,6 +123,20 @@ pub(super) fn error_check(
                 format_fraction(error.peak_volts() / full_scale_volts)
             ),
         ),
+        ErrorLimit::OfReading {
+            fraction,
+            reading_volts,
+        } => (
+            format!(
+                "peak error RTI ≤ {} of the {} reading",
+                format_fraction(*fraction),
+                format_si(*reading_volts, "V")
+            ),
+            format!(
+                "peak error RTI {} of the reading",
+                format_fraction(error.peak_volts() / reading_volts)
+            ),
+        ),
     };
     Check {
         kind: CheckKind::MaximumError {

@@ -199,6 +199,10 @@ fn limit_volts(limit: &ErrorLimit) -> f64 {
             fraction,
             full_scale_volts,
         } => fraction * full_scale_volts,
+        ErrorLimit::OfReading {
+            fraction,
+            reading_volts,
+        } => fraction * reading_volts,
     }
 }
 
@@ -617,6 +621,12 @@ fn describe_fraction_or_volts(volts: f64, limit: &ErrorLimit) -> String {
             format_si(volts, "V"),
             format_fraction(volts / full_scale_volts),
             format_si(*full_scale_volts, "V")
+        ),
+        ErrorLimit::OfReading { reading_volts, .. } => format!(
+            "{} ({} of the {} reading)",
+            format_si(volts, "V"),
+            format_fraction(volts / reading_volts),
+            format_si(*reading_volts, "V")
         ),
     }
 }

@@ -288,6 +288,42 @@ impl Validator<'_> {
         } else {
             "requirement.max_error".to_string()
         };
+        // A fraction of a stated reading instead of full scale.
+        let max_error = match &raw.reading {
+            None => max_error,
+            Some(scalar) => {
+                let reading_path = format!("{path}.reading");
+                let q = self.quantity(
+                    scalar,
+                    &reading_path,
+                    Dimension::Voltage,
+                    Range::Positive,
+                    false,
+                )?;
+                if q.form.is_some() {
+                    self.problem(
+                        &reading_path,
+                        "a reading is the differential input the sensor gives, a plain voltage",
+                        "write it without rms/pk/pp, e.g. `reading: 20 mV`",
+                    );
+                    return None;
+                }
+                match max_error {
+                    Some(ErrorLimit::OfFullScale { fraction, .. }) => Some(ErrorLimit::OfReading {
+                        fraction,
+                        reading_volts: q.value,
+                    }),
+                    _ => {
+                        self.problem(
+                            &reading_path,
+                            "a reading is given, but the allowed error is not a fraction to take of it",
+                            "give the allowed error as a share of the reading (e.g. `max_error: 1 %`), or drop `reading`",
+                        );
+                        return None;
+                    }
+                }
+            }
+        };
         if let Some(ErrorLimit::OfFullScale {
             full_scale_volts, ..
         }) = max_error
