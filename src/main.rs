@@ -876,11 +876,12 @@ fn check(file: &Path, format: CheckFormat) -> Result<u8, CliError> {
         file.display().to_string()
     };
     print_out(&format!(
-        "{shown}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} toleranced parameter(s)\n",
+        "{shown}: valid budget `{}`: {} stage(s) ({} amplifier), {} interference source(s), {} switching source(s), {} toleranced parameter(s)\n",
         budget.name,
         budget.chain.len(),
         amplifiers,
         budget.interference.len(),
+        budget.switching.len(),
         budget.parameters.iter().filter(|(_, p)| p.varies()).count(),
     ))?;
     Ok(MET)
