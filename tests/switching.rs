@@ -475,3 +475,21 @@ fn issue_14_a_limit_can_be_a_share_of_the_reading() {
         check.limit
     );
 }
+
+/// The rms corner of a matched chain: its nominal residue is zero, so the
+/// corner cannot follow it; taken largest part first, each at the end that
+/// adds most power, the exact corner comes near the linear bound (the two
+/// filter capacitors at opposite ends), not to a tenth of it (both at the
+/// same end, where they cancel).
+#[test]
+fn issue_14_the_rms_corner_of_a_matched_chain_does_not_cancel() {
+    let path =
+        std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("budgets/motor-shunt.yaml");
+    let text = std::fs::read_to_string(path)
+        .unwrap()
+        .replace("    blanking: 5 us", "    max_error: 300 uV rms #");
+    let report = judge(&parse(&text)).unwrap();
+    let rms = &report.switching[0].reference.rms_rti_v;
+    assert_eq!(rms.nominal, 0.0);
+    assert!(rms.worst_corner > 0.8 * rms.worst_case, "{rms:?}");
+}

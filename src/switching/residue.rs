@@ -288,22 +288,13 @@ pub fn corner_values(
     measure: &Measure,
     period_s: f64,
 ) -> Vec<f64> {
+    if *measure == Measure::Rms {
+        return rms_corner_values(budget, analysis, period_s);
+    }
     // How each candidate residue scores against a direction.
     let score: Box<dyn Fn(&Residue) -> f64> = match *measure {
         Measure::WindowMean { start_s, width_s } => {
             Box::new(move |r: &Residue| super::measure::window_mean(r, period_s, start_s, width_s))
-        }
-        Measure::Rms => {
-            let nominal = analysis.nominal.clone();
-            Box::new(move |r: &Residue| {
-                nominal.dc * r.dc
-                    + nominal
-                        .harmonics
-                        .iter()
-                        .zip(&r.harmonics)
-                        .map(|(a, b)| 2.0 * (a.conj() * b).re)
-                        .sum::<f64>()
-            })
         }
         _ => {
             let envelope = worst_case_envelope(analysis);
@@ -328,6 +319,42 @@ pub fn corner_values(
         } else {
             d.values[0]
         };
+    }
+    values
+}
+
+/// The corner for the rms: the residue's power is quadratic in the signs,
+/// so the parts are taken largest first, each at the end that adds most
+/// power to the sum so far (`2⟨R, Δ⟩ + ‖Δ‖²`, by Parseval over the
+/// harmonics), starting from the nominal residue — which also decides a
+/// matched chain, whose nominal residue is zero.
+fn rms_corner_values(budget: &Budget, analysis: &ResidueAnalysis, period_s: f64) -> Vec<f64> {
+    let inner = |a: &Residue, b: &Residue| {
+        a.dc * b.dc
+            + a.harmonics
+                .iter()
+                .zip(&b.harmonics)
+                .map(|(x, y)| 2.0 * (x.conj() * y).re)
+                .sum::<f64>()
+    };
+    let mut order: Vec<&Deviation> = analysis.deviations.iter().collect();
+    let size = |d: &Deviation| {
+        Measure::Rms
+            .of(&d.residues[0], period_s)
+            .max(Measure::Rms.of(&d.residues[1], period_s))
+    };
+    order.sort_by(|a, b| size(b).total_cmp(&size(a)));
+    let mut sum = analysis.nominal.clone();
+    let mut values = budget.parameters.values_at(analysis.delta_t);
+    for d in order {
+        let gain = |r: &Residue| 2.0 * inner(&sum, r) + inner(r, r);
+        let end = usize::from(gain(&d.residues[1]) >= gain(&d.residues[0]));
+        let chosen = &d.residues[end];
+        sum.dc += chosen.dc;
+        for (s, c) in sum.harmonics.iter_mut().zip(&chosen.harmonics) {
+            *s += c;
+        }
+        values[d.param.0] = d.values[end];
     }
     values
 }
