@@ -2,6 +2,7 @@
 //! field, what is wrong and what would be right.
 
 use super::locate::Position;
+use annotate_snippets::{Level, Renderer, Snippet};
 use std::fmt;
 use std::path::PathBuf;
 use thiserror::Error;
@@ -20,6 +21,60 @@ pub struct Diagnostic {
     pub problem: String,
     /// What would be right.
     pub fix: Option<String>,
+    /// The text of the line at `position`, shown under the message with
+    /// the place marked; filled in once the file's text is at hand.
+    #[serde(skip)]
+    pub source_line: Option<String>,
+}
+
+impl Diagnostic {
+    /// The same diagnostic with the line of `text` it points at.
+    pub fn with_source(mut self, text: &str) -> Diagnostic {
+        if let Some(position) = self.position {
+            self.source_line = text
+                .lines()
+                .nth(position.line.saturating_sub(1))
+                .map(str::to_string);
+        }
+        self
+    }
+
+    /// The source line with the value at the position marked, drawn by
+    /// annotate-snippets (its title line, which would repeat the message,
+    /// left out); empty without a source line.
+    fn snippet(&self) -> String {
+        let (Some(line), Some(position)) = (&self.source_line, self.position) else {
+            return String::new();
+        };
+        // The marked span: from the column to the end of the value (a
+        // trailing comment and spaces left out), at least one character.
+        let start = line
+            .char_indices()
+            .nth(position.column.saturating_sub(1))
+            .map_or(line.len(), |(byte, _)| byte);
+        let rest = &line[start..];
+        let value = rest.split(" #").next().unwrap_or("").trim_end();
+        let end = if value.is_empty() {
+            (start + rest.chars().next().map_or(0, char::len_utf8)).min(line.len())
+        } else {
+            start + value.len()
+        };
+        if start >= end {
+            return String::new();
+        }
+        let message = Level::Error.title("").snippet(
+            Snippet::source(line)
+                .line_start(position.line)
+                .annotation(Level::Error.span(start..end)),
+        );
+        let rendered = Renderer::plain().render(message).to_string();
+        let mut lines: Vec<&str> = rendered.lines().skip(1).map(str::trim_end).collect();
+        // A closing gutter line with nothing on it is left out.
+        if lines.last().is_some_and(|l| l.trim() == "|") {
+            lines.pop();
+        }
+        lines.iter().map(|l| format!("\n{l}")).collect()
+    }
 }
 
 impl fmt::Display for Diagnostic {
@@ -35,6 +90,7 @@ impl fmt::Display for Diagnostic {
             }
         }
         f.write_str(&self.problem)?;
+        f.write_str(&self.snippet())?;
         if let Some(fix) = &self.fix {
             write!(f, "\n  fix: {fix}")?;
         }
@@ -119,10 +175,31 @@ mod tests {
             field: Some("chain[0].source.resistance".into()),
             problem: "a resistance must be above zero".into(),
             fix: Some("write e.g. `1k`".into()),
+            source_line: None,
         };
         assert_eq!(
             d.to_string(),
             "a.yaml:3:7: field `chain[0].source.resistance`: a resistance must be above zero\n  fix: write e.g. `1k`"
+        );
+    }
+
+    /// Issue 17: the line is shown with the value marked, a trailing
+    /// comment left out.
+    #[test]
+    fn issue_17_the_source_line_is_shown_with_the_value_marked() {
+        let text = "name: x\nchain:\n  - source: {resistance: -1k}   # oops\n";
+        let d = Diagnostic {
+            file: "a.yaml".into(),
+            position: Some(Position { line: 3, column: 5 }),
+            field: Some("chain[0].source".into()),
+            problem: "bad".into(),
+            fix: None,
+            source_line: None,
+        }
+        .with_source(text);
+        assert_eq!(
+            d.to_string(),
+            "a.yaml:3:5: field `chain[0].source`: bad\n  |\n3 |   - source: {resistance: -1k}   # oops\n  |     ^^^^^^^^^^^^^^^^^^^^^^^^^"
         );
     }
 }

@@ -30,6 +30,7 @@ pub fn load_budget(path: &Path) -> Result<Budget, LoadError> {
             field: None,
             problem,
             fix: Some(fix.to_string()),
+            source_line: None,
         }])
     };
     let read_error = |source| LoadError::Read {
@@ -75,6 +76,7 @@ pub fn read_budget(reader: impl std::io::Read, file: &str) -> Result<Budget, Loa
             field: None,
             problem: format!("more than the {MAX_BUDGET_BYTES} bytes a budget may have"),
             fix: Some("a budget describes one front end in a few kilobytes; check that this is the right input".into()),
+            source_line: None,
         }]));
     }
     parse_budget_bytes(&bytes, file)
@@ -93,6 +95,7 @@ fn parse_budget_bytes(bytes: &[u8], file: &str) -> Result<Budget, LoadError> {
             field: None,
             problem: "the file is not valid UTF-8 text here".into(),
             fix: Some("save the budget as UTF-8 (the usual encoding of YAML); `Ω` and `±` may also be written `ohm` and `+-`".into()),
+            source_line: None,
         }])
     })?;
     parse_budget(text, file)
@@ -112,12 +115,16 @@ pub fn parse_budget(text: &str, file: &str) -> Result<Budget, LoadError> {
             fix: Some(
                 "start from one of the examples in budgets/ and describe your front end".into(),
             ),
+            source_line: None,
         }]));
     }
     let map = SourceMap::build(text);
-    let raw: raw::RawBudget = serde_yaml::from_str(text)
-        .map_err(|e| LoadError::Invalid(vec![yaml_diagnostic(&e, file, &map)]))?;
-    validate::validate(raw, file, &map).map_err(LoadError::Invalid)
+    let located = |problems: Vec<Diagnostic>| {
+        LoadError::Invalid(problems.into_iter().map(|d| d.with_source(text)).collect())
+    };
+    let raw: raw::RawBudget =
+        serde_yaml::from_str(text).map_err(|e| located(vec![yaml_diagnostic(&e, file, &map)]))?;
+    validate::validate(raw, file, &map).map_err(located)
 }
 
 /// Turn a serde_yaml error into a diagnostic with a suggested fix.
@@ -155,6 +162,7 @@ fn yaml_diagnostic(error: &serde_yaml::Error, file: &str, map: &SourceMap) -> Di
         field,
         problem: message,
         fix,
+        source_line: None,
     }
 }
 

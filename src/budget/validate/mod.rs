@@ -83,6 +83,7 @@ impl Validator<'_> {
             field: Some(path.to_string()),
             problem: problem.into(),
             fix: (!fix.is_empty()).then_some(fix),
+            source_line: None,
         });
     }
 
