@@ -376,7 +376,19 @@ impl Knob {
         }
     }
 
-    /// A setting as text.
+    /// The SI unit of a setting's number: `fraction` for a tolerance (0.001
+    /// is 0.1 %), `1/K` for a temperature coefficient, `V/V` for a gain,
+    /// `ohm` for a resistance.
+    pub fn setting_unit(&self) -> &'static str {
+        match self {
+            Knob::FirstStageGain { .. } => "V/V",
+            Knob::TailResistance { .. } => "ohm",
+            Knob::Tracking { .. } => "1/K",
+            _ => "fraction",
+        }
+    }
+
+    /// A setting as an engineer writes it.
     pub fn describe(&self, setting: f64) -> String {
         match self {
             Knob::FirstStageGain { .. } => format!("G1 = {}", format_si(setting, "V/V")),

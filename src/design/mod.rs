@@ -90,6 +90,9 @@ pub struct Blocker {
 pub struct Sizing {
     /// What was sized, e.g. `resistors of gain stage`.
     pub what: String,
+    /// The SI unit of every `setting` number below: `fraction` (a
+    /// tolerance), `1/K` (a TCR), `V/V` (a gain) or `ohm` (a resistance).
+    pub setting_unit: &'static str,
     /// Its setting in the budget as written.
     pub current: Option<String>,
     /// The loosest setting that meets the goal; null when none does.
@@ -217,6 +220,7 @@ pub fn size(budget: &Budget, knob: &Knob, goal: Goal) -> Result<Sizing, DesignEr
     };
     Ok(Sizing {
         what: format!("{what} of {}", budget.chain[knob.stage()].label),
+        setting_unit: knob.setting_unit(),
         current: knob.current(budget).map(|c| knob.describe(c)),
         answer,
         steps,

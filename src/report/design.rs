@@ -298,11 +298,13 @@ impl Render for SizingReport {
 
     /// One row per setting tried.
     fn csv(&self) -> String {
-        let mut out = String::from("setting,label,meets,holds,margin_db,yield,answer\n");
+        let mut out =
+            String::from("setting,setting_unit,label,meets,holds,margin_db,yield,answer\n");
         let answer = self.sizing.answer.as_ref().map(|a| a.setting);
         for step in &self.sizing.steps {
             let fields = [
                 number(step.setting),
+                self.sizing.setting_unit.to_string(),
                 escape(&step.label),
                 step.meets.to_string(),
                 step.holds.to_string(),
