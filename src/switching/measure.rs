@@ -85,24 +85,36 @@ impl Measure {
                 let power: f64 = residue.harmonics.iter().map(|c| 2.0 * c.norm_sqr()).sum();
                 (residue.dc * residue.dc + power).sqrt()
             }
-            Measure::Peak => residue.samples.iter().fold(0.0, |m, v| m.max(v.abs())),
+            Measure::WindowMean { start_s, width_s } => {
+                window_mean(residue, period_s, start_s, width_s).abs()
+            }
+            _ => self
+                .of_samples(&residue.samples, period_s)
+                .expect("read off the samples"),
+        }
+    }
+
+    /// The measure read off `samples` alone (one period, evenly spaced):
+    /// the peak, the peak-to-peak swing, the peak after blanking; `None`
+    /// for the rms and the window mean, which are exact from the
+    /// harmonics.
+    pub fn of_samples(&self, samples: &[f64], period_s: f64) -> Option<f64> {
+        match *self {
+            Measure::Peak => Some(samples.iter().fold(0.0, |m, v| m.max(v.abs()))),
             Measure::PeakToPeak => {
-                let (low, high) = residue
-                    .samples
+                let (low, high) = samples
                     .iter()
                     .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), &v| {
                         (l.min(v), h.max(v))
                     });
-                high - low
+                Some(high - low)
             }
-            Measure::AfterBlanking { judged } => {
-                judged_samples(judged, residue.samples.len(), period_s)
-                    .map(|i| residue.samples[i].abs())
-                    .fold(0.0, f64::max)
-            }
-            Measure::WindowMean { start_s, width_s } => {
-                window_mean(residue, period_s, start_s, width_s).abs()
-            }
+            Measure::AfterBlanking { judged } => Some(
+                judged_samples(judged, samples.len(), period_s)
+                    .map(|i| samples[i].abs())
+                    .fold(0.0, f64::max),
+            ),
+            Measure::Rms | Measure::WindowMean { .. } => None,
         }
     }
 

@@ -226,6 +226,10 @@ struct AtTemperature {
     analysis: ResidueAnalysis,
     corner_values: Vec<f64>,
     corner: Residue,
+    /// The linear bound's envelope, formed once.
+    worst_case: Vec<f64>,
+    /// The RSS envelope, formed once.
+    rss: Vec<f64>,
 }
 
 impl AtTemperature {
@@ -242,19 +246,15 @@ impl AtTemperature {
         let corner = m(&self.corner);
         // For the instantaneous measures the envelopes are tighter bounds
         // than the sum of the parts' peaks, and are what settling uses.
-        let on_envelope = |envelope: Vec<f64>| -> f64 {
-            let as_residue = Residue {
-                dc: 0.0,
-                harmonics: Vec::new(),
-                samples: envelope,
-            };
-            measure.of(&as_residue, period)
-        };
         match measure {
             Measure::Peak | Measure::AfterBlanking { .. } => Totals {
-                worst_case: on_envelope(worst_case_envelope(&self.analysis)),
+                worst_case: measure
+                    .of_samples(&self.worst_case, period)
+                    .expect("a peak measure"),
                 worst_corner: corner,
-                rss: on_envelope(rss_envelope(&self.analysis)),
+                rss: measure
+                    .of_samples(&self.rss, period)
+                    .expect("a peak measure"),
                 nominal,
             },
             _ => Totals {
@@ -271,19 +271,19 @@ impl AtTemperature {
             temperature_k: self.kelvin,
             nominal: self.analysis.nominal.samples.clone(),
             worst_corner: self.corner.samples.clone(),
-            worst_case: worst_case_envelope(&self.analysis),
-            rss: rss_envelope(&self.analysis),
+            worst_case: self.worst_case.clone(),
+            rss: self.rss.clone(),
         }
     }
 
     fn settling(&self, source: &Switching) -> Option<Settling> {
         let band = band_of(source)?;
-        let w = self.waveforms();
+        let settled = |samples: &[f64], edge| settling_time(samples, &source.waveform, edge, band);
         let after = |edge: Edge| Totals {
-            worst_case: settling_time(&w.worst_case, &source.waveform, edge, band),
-            worst_corner: settling_time(&w.worst_corner, &source.waveform, edge, band),
-            rss: settling_time(&w.rss, &source.waveform, edge, band),
-            nominal: settling_time(&w.nominal, &source.waveform, edge, band),
+            worst_case: settled(&self.worst_case, edge),
+            worst_corner: settled(&self.corner.samples, edge),
+            rss: settled(&self.rss, edge),
+            nominal: settled(&self.analysis.nominal.samples, edge),
         };
         Some(Settling {
             band_rti_v: band,
@@ -386,6 +386,8 @@ fn analysed(
     let corner = corner_residue(budget, source, values.clone(), delta_t)?;
     Ok(AtTemperature {
         kelvin,
+        worst_case: worst_case_envelope(&analysis),
+        rss: rss_envelope(&analysis),
         analysis,
         corner_values: values,
         corner,

@@ -98,24 +98,37 @@ impl Validator<'_> {
         }))
     }
 
+    /// A voltage with no rms, peak or peak-to-peak form (a level, a full
+    /// scale, a reading), read through `quantity` (its range, plausibility
+    /// and no tolerance); a form is refused with the caller's `problem` and
+    /// `fix`, which say what the field is. (`plain_voltage` is the stage
+    /// fields' variant, of either sign, with one message for every slip.)
+    pub(super) fn formless_voltage(
+        &mut self,
+        scalar: &Scalar,
+        path: &str,
+        range: Range,
+        (problem, fix): (&str, &str),
+    ) -> Option<f64> {
+        let q = self.quantity(scalar, path, Dimension::Voltage, range, false)?;
+        if q.form.is_some() {
+            self.problem(path, problem, fix);
+            return None;
+        }
+        Some(q.value)
+    }
+
     pub(super) fn requirement(&mut self, raw: &RawRequirement) -> Option<Requirement> {
         let full_scale_volts = raw.full_scale.as_ref().and_then(|f| {
-            let q = self.quantity(
+            self.formless_voltage(
                 f,
                 "requirement.full_scale",
-                Dimension::Voltage,
                 Range::Positive,
-                false,
-            )?;
-            if q.form.is_some() {
-                self.problem(
-                    "requirement.full_scale",
+                (
                     "a full scale is the largest differential input, a plain voltage",
                     "write it without rms/pk/pp, e.g. `10 mV`",
-                );
-                return None;
-            }
-            Some(q.value)
+                ),
+            )
         });
         let max_error = raw
             .max_error

@@ -50,17 +50,15 @@ impl Validator<'_> {
             );
         }
         let level = |v: &mut Self, scalar, field: &str| {
-            let field_path = format!("{path}.{field}");
-            let q = v.quantity(scalar, &field_path, Dimension::Voltage, Range::Any, false)?;
-            if q.form.is_some() {
-                v.problem(
-                    &field_path,
+            v.formless_voltage(
+                scalar,
+                &format!("{path}.{field}"),
+                Range::Any,
+                (
                     "a switching level is an instantaneous voltage, with no rms, peak or peak-to-peak form",
                     "write it as a plain voltage, e.g. `48 V` or `0 V`",
-                );
-                return None;
-            }
-            Some(q.value)
+                ),
+            )
         };
         let low = level(self, &raw.low, "low");
         let high = level(self, &raw.high, "high");
@@ -292,30 +290,23 @@ impl Validator<'_> {
         let max_error = match &raw.reading {
             None => max_error,
             Some(scalar) => {
-                let reading_path = format!("{path}.reading");
-                let q = self.quantity(
+                let reading = self.formless_voltage(
                     scalar,
-                    &reading_path,
-                    Dimension::Voltage,
+                    &format!("{path}.reading"),
                     Range::Positive,
-                    false,
-                )?;
-                if q.form.is_some() {
-                    self.problem(
-                        &reading_path,
+                    (
                         "a reading is the differential input the sensor gives, a plain voltage",
                         "write it without rms/pk/pp, e.g. `reading: 20 mV`",
-                    );
-                    return None;
-                }
+                    ),
+                )?;
                 match max_error {
                     Some(ErrorLimit::OfFullScale { fraction, .. }) => Some(ErrorLimit::OfReading {
                         fraction,
-                        reading_volts: q.value,
+                        reading_volts: reading,
                     }),
                     _ => {
                         self.problem(
-                            &reading_path,
+                            &format!("{path}.reading"),
                             "a reading is given, but the allowed error is not a fraction to take of it",
                             "give the allowed error as a share of the reading (e.g. `max_error: 1 %`), or drop `reading`",
                         );
