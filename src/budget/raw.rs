@@ -79,6 +79,8 @@ pub struct RawMeasurand {
     #[serde(default)]
     pub volts_per_unit: Option<Scalar>,
     #[serde(default)]
+    pub capacity: Option<Scalar>,
+    #[serde(default)]
     pub bridge: Option<RawBridgeRating>,
 }
 
@@ -142,6 +144,30 @@ pub struct RawAdc {
     pub input_resistance: Option<PerLeg>,
     #[serde(default)]
     pub input_capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub filter: Option<RawFilter>,
+}
+
+/// A converter's digital filter: exactly one of `sinc` (with
+/// `output_rate`, optionally `decimation`), `average_over` (a time),
+/// `average_of` (samples, with `sample_rate`) or `table`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawFilter {
+    #[serde(default)]
+    pub sinc: Option<u32>,
+    #[serde(default)]
+    pub output_rate: Option<Scalar>,
+    #[serde(default)]
+    pub decimation: Option<u32>,
+    #[serde(default)]
+    pub average_over: Option<Scalar>,
+    #[serde(default)]
+    pub average_of: Option<u32>,
+    #[serde(default)]
+    pub sample_rate: Option<Scalar>,
+    #[serde(default)]
+    pub table: Option<Vec<Vec<Scalar>>>,
 }
 
 /// The source network.
@@ -393,6 +419,8 @@ pub struct RawInterference {
     pub frequency: Scalar,
     #[serde(default)]
     pub max_error: Option<Scalar>,
+    #[serde(default)]
+    pub frequency_drift: Option<Scalar>,
 }
 
 /// A switching common-mode waveform: a periodic trapezoid.

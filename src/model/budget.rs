@@ -33,6 +33,10 @@ pub struct Budget {
     pub temperature: Option<TemperatureRange>,
     /// The measured quantity, when given.
     pub measurand: Option<Measurand>,
+    /// The digital filter after the converter that ends the chain, when
+    /// the converter states one: it attenuates what each source leaves in
+    /// the reading by its gain at the source's frequency.
+    pub digital_filter: Option<super::DigitalFilter>,
     /// The file's preferred sweep range (each part optional).
     pub sweep: SweepRange,
     /// How toleranced values spread in production, by default.
@@ -94,6 +98,14 @@ pub struct Measurand {
     pub unit: String,
     /// Volts at the sensor's output per unit of the quantity.
     pub volts_per_unit: f64,
+    /// The sensor's full-scale output in volts (a bridge's sensitivity ×
+    /// excitation, or `volts_per_unit` × the stated capacity), when the
+    /// measurand gives it: the requirement's full scale unless it states
+    /// its own.
+    pub full_scale_volts: Option<f64>,
+    /// A bridge's excitation in volts, when the measurand is a bridge: a
+    /// source may take its common mode from it (`amplitude: excitation/2`).
+    pub excitation_volts: Option<f64>,
 }
 
 /// The operating temperature range and the reference temperature at which
@@ -182,6 +194,20 @@ pub struct Interference {
     /// The largest error it may leave, referred to the input; overrides the
     /// requirement's default when given.
     pub max_error: Option<ErrorLimit>,
+    /// How far its frequency may stray either side, as a fraction (a mains
+    /// frequency within ±1 %); 0 when it is exact. A digital filter's
+    /// notch is judged at the worst frequency of that band.
+    pub frequency_drift: f64,
+}
+
+impl Interference {
+    /// The band its frequency may take, `[f (1 − d), f (1 + d)]`, Hz.
+    pub fn frequency_band(&self) -> [f64; 2] {
+        [
+            self.frequency_hz * (1.0 - self.frequency_drift),
+            self.frequency_hz * (1.0 + self.frequency_drift),
+        ]
+    }
 }
 
 /// A periodic common-mode waveform: a trapezoid switching between two
@@ -290,6 +316,26 @@ pub enum ErrorLimit {
         /// The reading, volts referred to the input.
         reading_volts: f64,
     },
+    /// A number of the converter's codes (LSB), as the reading shows them;
+    /// with no form it is a peak figure (`±1 count`). Referred to the input
+    /// through the chain's differential gain (see
+    /// [`ErrorLimit::volts_rti`]).
+    Codes {
+        /// The number of codes.
+        codes: f64,
+        /// rms, peak or peak-to-peak; `None` for a peak (or DC) figure.
+        form: Option<AmplitudeForm>,
+    },
+    /// An amount of the measured quantity (`0.005 kg`, `0.1 °C`); with no
+    /// form it is a peak figure.
+    InMeasurand {
+        /// The amount, in the measurand's unit.
+        amount: f64,
+        /// rms, peak or peak-to-peak; `None` for a peak (or DC) figure.
+        form: Option<AmplitudeForm>,
+        /// Volts at the sensor per unit of the quantity.
+        volts_per_unit: f64,
+    },
 }
 
 impl ErrorLimit {
@@ -299,33 +345,72 @@ impl ErrorLimit {
     /// waveform, so it is expressed in the limit's form first (see
     /// [`Amplitude::in_form`]); a fraction of full scale is a peak figure
     /// (the full scale is the largest differential input), so the error's
-    /// peak is compared with it. `None` where the limit's form means
-    /// nothing for the source (a peak-to-peak limit on a DC source).
-    pub fn allowed_conversion(&self, source: &Amplitude) -> Option<f64> {
-        match self {
-            ErrorLimit::Volts(limit) => {
-                let source_in_limit_form = source.in_form(limit.form)?;
-                Some(limit.volts / source_in_limit_form)
-            }
+    /// peak is compared with it. `volts_per_code` is one converter code
+    /// referred to the input, for a limit in codes. `None` where the
+    /// limit's form means nothing for the source (a peak-to-peak limit on a
+    /// DC source), or for codes without `volts_per_code`.
+    pub fn allowed_conversion(
+        &self,
+        source: &Amplitude,
+        volts_per_code: Option<f64>,
+    ) -> Option<f64> {
+        let limit = self.volts_rti(volts_per_code)?;
+        let source_in_limit_form = source.in_form(limit.form)?;
+        Some(limit.volts / source_in_limit_form)
+    }
+
+    /// The limit as a voltage referred to the input, in its form (a
+    /// fraction of full scale or of a reading, and codes or measurand
+    /// amounts with no form, are peak figures). A code is `volts_per_code`
+    /// at the input; `None` for codes without it.
+    pub fn volts_rti(&self, volts_per_code: Option<f64>) -> Option<Amplitude> {
+        let peak = |volts: f64| Amplitude {
+            volts,
+            form: Some(AmplitudeForm::Peak),
+        };
+        Some(match *self {
+            ErrorLimit::Volts(limit) => limit,
             ErrorLimit::OfFullScale {
                 fraction,
                 full_scale_volts,
-            } => Some(fraction * full_scale_volts / source.peak_volts()),
+            } => peak(fraction * full_scale_volts),
             ErrorLimit::OfReading {
                 fraction,
                 reading_volts,
-            } => Some(fraction * reading_volts / source.peak_volts()),
-        }
+            } => peak(fraction * reading_volts),
+            ErrorLimit::Codes { codes, form } => Amplitude {
+                volts: codes * volts_per_code?,
+                form: Some(form.unwrap_or(AmplitudeForm::Peak)),
+            },
+            ErrorLimit::InMeasurand {
+                amount,
+                form,
+                volts_per_unit,
+                ..
+            } => Amplitude {
+                volts: amount * volts_per_unit,
+                form: Some(form.unwrap_or(AmplitudeForm::Peak)),
+            },
+        })
     }
 
     /// The limit's form: rms, peak or peak-to-peak for a voltage that
     /// names one, `None` for a plain voltage (and for a fraction of full
-    /// scale, which is a peak figure).
+    /// scale, which is a peak figure); codes and measurand amounts are
+    /// peak figures unless they name a form.
     pub fn form(&self) -> Option<AmplitudeForm> {
         match self {
             ErrorLimit::Volts(limit) => limit.form,
             ErrorLimit::OfFullScale { .. } | ErrorLimit::OfReading { .. } => None,
+            ErrorLimit::Codes { form, .. } | ErrorLimit::InMeasurand { form, .. } => {
+                Some(form.unwrap_or(AmplitudeForm::Peak))
+            }
         }
+    }
+
+    /// Whether the limit is stated in the converter's codes.
+    pub fn is_in_codes(&self) -> bool {
+        matches!(self, ErrorLimit::Codes { .. })
     }
 }
 
@@ -429,7 +514,10 @@ mod tests {
             volts: 2.5,
             form: None,
         };
-        assert_relative_eq!(limit.allowed_conversion(&source).unwrap(), 80e-6 / 2.5);
+        assert_relative_eq!(
+            limit.allowed_conversion(&source, None).unwrap(),
+            80e-6 / 2.5
+        );
         // A sine source against a peak-to-peak limit: through the peak.
         let hum = Amplitude {
             volts: 1.0,
@@ -440,7 +528,7 @@ mod tests {
             form: Some(AmplitudeForm::PeakToPeak),
         });
         assert_relative_eq!(
-            pp.allowed_conversion(&hum).unwrap(),
+            pp.allowed_conversion(&hum, None).unwrap(),
             1e-3 / (2.0 * 2f64.sqrt())
         );
     }

@@ -2,6 +2,7 @@
 //! validator in [`crate::budget`]; the engine never sees budget-file text.
 
 mod budget;
+mod digital_filter;
 mod params;
 
 pub use budget::{
@@ -9,4 +10,5 @@ pub use budget::{
     MinimumCmrr, NullTrim, Production, Requirement, Safety, SampleWindow, SweepRange, Switching,
     TemperatureRange, Trapezoid,
 };
+pub use digital_filter::{DigitalFilter, FilterError, ResponseTable, SincFilter, SincForm};
 pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

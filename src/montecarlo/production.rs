@@ -195,8 +195,10 @@ fn point_of(frequencies: &[f64], freq: f64) -> usize {
         .expect("every analysis frequency is in the list")
 }
 
-/// The requirement as per-trial checks.
-pub fn trial_checks(budget: &Budget, frequencies: &[f64]) -> Vec<TrialCheck> {
+/// The requirement as per-trial checks: each source's largest conversion
+/// as its verdict states it (the digital filter and a limit's codes or
+/// units accounted for there).
+pub fn trial_checks(budget: &Budget, verdict: &Report, frequencies: &[f64]) -> Vec<TrialCheck> {
     let mut checks = Vec::new();
     if let Some(requirement) = &budget.requirement {
         for minimum in &requirement.min_cmrr {
@@ -206,16 +208,13 @@ pub fn trial_checks(budget: &Budget, frequencies: &[f64]) -> Vec<TrialCheck> {
             });
         }
     }
-    let default_limit = budget.requirement.as_ref().and_then(|r| r.max_error);
-    for (index, source) in budget.interference.iter().enumerate() {
-        if let Some(limit) = source.max_error.or(default_limit) {
-            if let Some(max_conversion) = limit.allowed_conversion(&source.amplitude) {
-                checks.push(TrialCheck::MaximumError {
-                    point: point_of(frequencies, source.frequency_hz),
-                    source: index,
-                    max_conversion,
-                });
-            }
+    for (index, (source, judged)) in budget.interference.iter().zip(&verdict.results).enumerate() {
+        if let Some(max_conversion) = judged.max_conversion {
+            checks.push(TrialCheck::MaximumError {
+                point: point_of(frequencies, source.frequency_hz),
+                source: index,
+                max_conversion,
+            });
         }
     }
     checks
@@ -254,7 +253,7 @@ pub fn production_yield_judged(
     stop: &AtomicBool,
 ) -> Result<(YieldReport, YieldRun), YieldReportError> {
     let frequencies = analysis_frequencies(budget);
-    let checks = trial_checks(budget, &frequencies);
+    let checks = trial_checks(budget, verdict, &frequencies);
     let run = run_yield(budget, &frequencies, &checks, options, progress, stop)?;
     if run.trials_run == 0 {
         return Err(YieldReportError::NoTrials);

@@ -85,6 +85,21 @@ fn significant(value: f64) -> String {
     format!("{value:.digits$}")
 }
 
+/// A plain number with three significant digits (scientific notation
+/// outside 0.001 to 100,000), for amounts whose unit the user named (codes,
+/// kilograms) and so takes no SI prefix.
+pub fn format_plain(value: f64) -> String {
+    if value == 0.0 {
+        "0".to_string()
+    } else if !value.is_finite() {
+        format_si(value, "")
+    } else if (1e-3..1e5).contains(&value.abs()) {
+        significant(value)
+    } else {
+        format!("{value:.2e}")
+    }
+}
+
 /// Format a decibel figure with one decimal, `∞ dB` for an infinite ratio.
 pub fn format_db(db: f64) -> String {
     if db.is_infinite() && db > 0.0 {

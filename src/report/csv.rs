@@ -2,7 +2,7 @@
 //! interference source and every further frequency. Units are in the
 //! headers; an infinite CMRR is written `inf`.
 
-use super::{ContributionRow, Db, Report, Totals};
+use super::{ContributionRow, Db, FilteredError, Report, Totals};
 
 const HEADER: &str = "source,frequency_hz,amplitude_v,amplitude_form,row,contributor,stage,value,kind,cmrr_db,error_rti_v,error_rto_v,share";
 
@@ -27,6 +27,15 @@ pub fn render_csv(report: &Report) -> String {
             Some((&result.error_rti_v, &result.error_rto_v)),
             result.differential_gain,
         );
+        if let Some(filtered) = &result.after_filter {
+            filter_rows(
+                &mut out,
+                &lead,
+                filtered,
+                &result.cmrr_db,
+                result.differential_gain,
+            );
+        }
     }
     for frequency in &report.frequencies {
         let lead = [
@@ -101,6 +110,34 @@ fn write_rows(
             db(cmrr_db),
             error.map(|e| number(e.0)).unwrap_or_default(),
             error.map(|e| number(e.1)).unwrap_or_default(),
+            String::new(),
+        ];
+        push_line(out, lead, &fields);
+    }
+}
+
+/// The totals after the converter's digital filter: `row` is
+/// `after filter`, `value` the filter, `cmrr_db` the rejection as read
+/// (the chain's CMRR plus the filter's rejection), the errors in the
+/// reading.
+fn filter_rows(
+    out: &mut String,
+    lead: &[String; 4],
+    filtered: &FilteredError,
+    cmrr: &Totals<Db>,
+    gain: f64,
+) {
+    for judgement in crate::verdict::TOTALS {
+        let rti = filtered.error_rti_v.judged(judgement);
+        let fields = [
+            "after filter".to_string(),
+            judgement.label().to_lowercase(),
+            String::new(),
+            filtered.filter.clone(),
+            "digital filter".to_string(),
+            db(Db(cmrr.judged(judgement).0 + filtered.rejection_db.0)),
+            number(rti),
+            number(rti * gain),
             String::new(),
         ];
         push_line(out, lead, &fields);

@@ -17,7 +17,7 @@ pub mod yield_report;
 
 pub use crate::verdict::{
     cautions as cautions_for, Check, ContributionKind, ContributionRow, Corner, CornerValue, Db,
-    FrequencyResult, JudgedFigure, Report, RequirementOutcome, SourceResult, Status,
+    FilteredError, FrequencyResult, JudgedFigure, Report, RequirementOutcome, SourceResult, Status,
     TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 

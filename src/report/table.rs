@@ -3,8 +3,8 @@
 
 use super::layout::styled;
 use super::{
-    ContributionRow, Corner, FrequencyResult, JudgedFigure, Report, RequirementOutcome,
-    SourceResult, Status, TemperatureResult,
+    ContributionRow, Corner, FilteredError, FrequencyResult, JudgedFigure, Report,
+    RequirementOutcome, SourceResult, Status, TemperatureResult,
 };
 use crate::model::describe_volts;
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
@@ -94,8 +94,13 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
         }
         totals.push_record(row);
     }
+    let filtered = result
+        .after_filter
+        .as_ref()
+        .map(|f| filter_block(f, form, measurand_unit))
+        .unwrap_or_default();
     out.push_str(&section_end(
-        totals,
+        (totals, &filtered),
         &result.corner,
         result.at_temperature.as_ref(),
         form,
@@ -104,16 +109,80 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
     out
 }
 
+/// Where in its band a source's filter rejection was taken.
+fn band_text(filtered: &FilteredError) -> String {
+    let [lo, hi] = filtered.band_hz;
+    let centre = (lo + hi) / 2.0;
+    if hi <= lo {
+        return format!("at {}", format_si(centre, "Hz"));
+    }
+    let drift = format_fraction((hi - lo) / (hi + lo));
+    let place = if filtered.worst_at_hz == lo {
+        "its low end".to_string()
+    } else if filtered.worst_at_hz == hi {
+        "its high end".to_string()
+    } else {
+        format!(
+            "{:+.3} % from its centre",
+            (filtered.worst_at_hz / centre - 1.0) * 100.0
+        )
+    };
+    format!(
+        "(the worst over {} ±{drift}, at {place})",
+        format_si(centre, "Hz")
+    )
+}
+
+/// The error in the reading after the converter's digital filter.
+fn filter_block(
+    filtered: &FilteredError,
+    form: Option<AmplitudeForm>,
+    measurand_unit: Option<&str>,
+) -> String {
+    let mut out = format!(
+        "after the digital filter ({}): rejection {} {}\n",
+        filtered.filter,
+        format_db(filtered.rejection_db.0),
+        band_text(filtered),
+    );
+    let mut table = Builder::default();
+    let mut header = vec!["total", "error RTI as read"];
+    if filtered.error_lsb.is_some() {
+        header.push("error (codes)");
+    }
+    if filtered.error_measurand.is_some() {
+        header.push("error (measurand)");
+    }
+    table.push_record(header);
+    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
+    for judgement in TOTALS {
+        let mut row = vec![
+            judgement.label().to_string(),
+            describe_volts(filtered.error_rti_v.judged(judgement), form),
+        ];
+        if let Some(lsb) = &filtered.error_lsb {
+            row.push(format!(
+                "{} LSB{suffix}",
+                plain_number(lsb.judged(judgement))
+            ));
+        }
+        if let Some(error) = &filtered.error_measurand {
+            let unit = measurand_unit.unwrap_or("");
+            row.push(format!(
+                "{} {unit}{suffix}",
+                plain_number(error.judged(judgement))
+            ));
+        }
+        table.push_record(row);
+    }
+    out.push_str(&styled(table, 1..usize::MAX));
+    out.push('\n');
+    out
+}
+
 /// A number with three significant digits, in plain or scientific form.
 fn plain_number(value: f64) -> String {
-    if value == 0.0 {
-        "0".to_string()
-    } else if (1e-3..1e5).contains(&value.abs()) {
-        let digits = (2 - value.abs().log10().floor() as i32).max(0) as usize;
-        format!("{value:.digits$}")
-    } else {
-        format!("{value:.2e}")
-    }
+    crate::quantity::format_plain(value)
 }
 
 /// A temperature in degrees Celsius.
@@ -177,7 +246,7 @@ fn frequency_section(result: &FrequencyResult) -> String {
         ]);
     }
     out.push_str(&section_end(
-        totals,
+        (totals, ""),
         &result.corner,
         result.at_temperature.as_ref(),
         None,
@@ -236,8 +305,11 @@ fn contribution_table(rows: &[ContributionRow], form: Option<AmplitudeForm>) -> 
 
 /// The totals table, the corner line and the requirement, which end every
 /// section.
+/// The end of a section: the totals table and what follows it (`after`,
+/// e.g. the error after a digital filter), the worst corner, the worse end
+/// of the temperature range and the requirement's outcome.
 fn section_end(
-    totals: Builder,
+    (totals, after): (Builder, &str),
     corner: &Corner,
     at_temperature: Option<&TemperatureResult>,
     form: Option<AmplitudeForm>,
@@ -245,6 +317,7 @@ fn section_end(
 ) -> String {
     let mut out = styled(totals, 1..usize::MAX);
     out.push('\n');
+    out.push_str(after);
     out.push_str(&corner_lines(corner));
     if let Some(result) = at_temperature {
         out.push_str(&temperature_lines(result, form));

@@ -11,7 +11,7 @@
 
 use super::{Check, CheckKind, Db, RequirementOutcome};
 use crate::model::{describe_volts, Amplitude, ErrorLimit, Judgement, Requirement};
-use crate::quantity::{format_db, format_fraction, format_si};
+use crate::quantity::{format_db, format_fraction, format_plain, format_si, AmplitudeForm};
 
 /// Two frequencies closer than this (relative) are the same point.
 const SAME_FREQUENCY: f64 = 1e-9;
@@ -78,31 +78,68 @@ pub(super) fn cmrr_checks(requirement: &Requirement, freq: f64, achieved: Db) ->
         .collect()
 }
 
-/// Compare the error that `source` leaves through a conversion of
-/// magnitude `conversion` with its limit, in the limit's form.
+/// How an error is read at the end of the chain: one converter code
+/// referred to the input (for limits in codes), the digital filter's worst
+/// gain at the source's frequency (1 without a filter, or at DC), and the
+/// measurand's unit (for limits in it).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct ReadingScale<'a> {
+    /// One code, volts referred to the input; `None` without a converter.
+    pub volts_per_code: Option<f64>,
+    /// `|H|` of the converter's digital filter, worst over the source's
+    /// band; `None` where no filter acts.
+    pub filter_gain: Option<f64>,
+    /// The measurand's unit, when the budget names one.
+    pub unit: &'a str,
+}
+
+impl ReadingScale<'_> {
+    /// The factor from the error at the converter's input to the error in
+    /// the reading.
+    pub fn gain(&self) -> f64 {
+        self.filter_gain.unwrap_or(1.0)
+    }
+
+    /// The largest analog conversion `|ε|` that keeps `source`'s error in
+    /// the reading within `limit`; `None` where the limit's form means
+    /// nothing for the source.
+    pub fn allowed_conversion(&self, limit: &ErrorLimit, source: &Amplitude) -> Option<f64> {
+        Some(limit.allowed_conversion(source, self.volts_per_code)? / self.gain())
+    }
+}
+
+/// Compare the error that `source` leaves in the reading through an analog
+/// conversion of magnitude `conversion` with its limit, in the limit's
+/// form and units.
 pub(super) fn error_check(
     name: &str,
     limit: &ErrorLimit,
     source: &Amplitude,
     conversion: f64,
+    scale: &ReadingScale,
 ) -> Check {
     // Validation has refused the pairs of forms with no meaning, so the
     // allowance exists; a NaN would fail the check rather than pass it.
-    let allowed = limit.allowed_conversion(source).unwrap_or(f64::NAN);
+    let allowed = scale.allowed_conversion(limit, source).unwrap_or(f64::NAN);
     let margin = if conversion == 0.0 {
         Db(f64::INFINITY)
     } else {
         Db(20.0 * (allowed / conversion).log10())
     };
     let error = Amplitude {
-        volts: conversion * source.volts,
+        volts: conversion * scale.gain() * source.volts,
         form: source.form,
+    };
+    let filtered = if scale.filter_gain.is_some() {
+        " after the digital filter"
+    } else {
+        ""
     };
     let (limit_text, achieved) = match limit {
         ErrorLimit::Volts(amplitude) => (
-            format!("error RTI ≤ {}", amplitude.describe()),
+            format!("error RTI{filtered} ≤ {}", amplitude.describe()),
             format!(
-                "error RTI {}",
+                "error RTI{filtered} {}",
                 describe_volts(
                     error.in_form(amplitude.form).unwrap_or(f64::NAN),
                     amplitude.form
@@ -114,12 +151,12 @@ pub(super) fn error_check(
             full_scale_volts,
         } => (
             format!(
-                "peak error RTI ≤ {} of {} full scale",
+                "peak error RTI{filtered} ≤ {} of {} full scale",
                 format_fraction(*fraction),
                 format_si(*full_scale_volts, "V")
             ),
             format!(
-                "peak error RTI {} of full scale",
+                "peak error RTI{filtered} {} of full scale",
                 format_fraction(error.peak_volts() / full_scale_volts)
             ),
         ),
@@ -128,15 +165,43 @@ pub(super) fn error_check(
             reading_volts,
         } => (
             format!(
-                "peak error RTI ≤ {} of the {} reading",
+                "peak error RTI{filtered} ≤ {} of the {} reading",
                 format_fraction(*fraction),
                 format_si(*reading_volts, "V")
             ),
             format!(
-                "peak error RTI {} of the reading",
+                "peak error RTI{filtered} {} of the reading",
                 format_fraction(error.peak_volts() / reading_volts)
             ),
         ),
+        ErrorLimit::Codes { codes, .. } => {
+            let form = limit.form();
+            let per_code = scale.volts_per_code.unwrap_or(f64::NAN);
+            let read = error.in_form(form).unwrap_or(f64::NAN) / per_code;
+            let what = form_word(form);
+            (
+                format!(
+                    "{what} error{filtered} ≤ {} LSB ({} RTI per code)",
+                    format_plain(*codes),
+                    format_si(per_code, "V")
+                ),
+                format!("{what} error{filtered} {} LSB", format_plain(read)),
+            )
+        }
+        ErrorLimit::InMeasurand {
+            amount,
+            volts_per_unit,
+            ..
+        } => {
+            let form = limit.form();
+            let read = error.in_form(form).unwrap_or(f64::NAN) / volts_per_unit;
+            let what = form_word(form);
+            let unit = scale.unit;
+            (
+                format!("{what} error{filtered} ≤ {} {unit}", format_plain(*amount)),
+                format!("{what} error{filtered} {} {unit}", format_plain(read)),
+            )
+        }
     };
     Check {
         kind: CheckKind::MaximumError {
@@ -147,5 +212,14 @@ pub(super) fn error_check(
         margin_db: margin,
         allowed_cmrr_db: Db::from_conversion(allowed),
         met: margin.0 >= 0.0,
+    }
+}
+
+/// `peak`, `rms` or `peak-to-peak`, for a limit in codes or units.
+fn form_word(form: Option<AmplitudeForm>) -> &'static str {
+    match form {
+        Some(AmplitudeForm::Rms) => "rms",
+        Some(AmplitudeForm::PeakToPeak) => "peak-to-peak",
+        _ => "peak",
     }
 }

@@ -3,11 +3,11 @@
 //! and the verdict.
 
 use super::cautions::cautions;
-use super::checks::{cmrr_checks, error_check, judged_on, outcome, same_frequency};
+use super::checks::{cmrr_checks, error_check, judged_on, outcome, same_frequency, ReadingScale};
 use super::facts::{facts, remarks};
 use super::{
-    ContributionKind, ContributionRow, Corner, CornerValue, Db, FrequencyResult, JudgedFigure,
-    Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
+    ContributionKind, ContributionRow, Corner, CornerValue, Db, FilteredError, FrequencyResult,
+    JudgedFigure, Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 use crate::engine::{
     analyse_point_at, check_headroom, ranking_key, worst_corners, CornerSearch, EngineError,
@@ -511,12 +511,22 @@ fn source_result(
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
         .unwrap_or_default();
-    if let Some(limit) = source.max_error.or(requirement.and_then(|r| r.max_error)) {
+    let after_filter = filtered_error(budget, source, conversion, gain);
+    let scale = ReadingScale {
+        volts_per_code: lsb_volts(budget).map(|lsb| lsb / gain),
+        filter_gain: after_filter
+            .as_ref()
+            .map(|f| 10f64.powf(-f.rejection_db.0 / 20.0)),
+        unit: budget.measurand.as_ref().map_or("", |m| m.unit.as_str()),
+    };
+    let limit = source.max_error.or(requirement.and_then(|r| r.max_error));
+    if let Some(limit) = &limit {
         checks.push(error_check(
             &source.name,
-            &limit,
+            limit,
             &source.amplitude,
             worst.1,
+            &scale,
         ));
     }
     SourceResult {
@@ -537,9 +547,42 @@ fn source_result(
             .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
         contributions: contribution_rows(budget, analysis, Some(&source.amplitude)),
         at_temperature: temperature_result(budget, analyses, Some(&source.amplitude)),
+        after_filter,
         judged,
         requirement: outcome(requirement, checks),
+        max_conversion: limit.and_then(|l| scale.allowed_conversion(&l, &source.amplitude)),
     }
+}
+
+/// The error `source` leaves after the converter's digital filter, from
+/// the analog conversion totals and the chain's differential gain `gain`
+/// at the source's frequency; `None` without a filter or for a DC source.
+fn filtered_error(
+    budget: &Budget,
+    source: &Interference,
+    conversion: Totals<f64>,
+    gain: f64,
+) -> Option<FilteredError> {
+    let filter = budget.digital_filter.as_ref()?;
+    if source.frequency_hz == 0.0 {
+        return None;
+    }
+    let band_hz = source.frequency_band();
+    // Validation has checked that a table covers the band.
+    let (filter_gain, worst_at_hz) = filter.worst_gain(band_hz[0], band_hz[1]).ok()?;
+    let error_rti_v = conversion.map(|e| e * source.amplitude.volts * filter_gain);
+    Some(FilteredError {
+        filter: filter.describe(),
+        band_hz,
+        worst_at_hz,
+        rejection_db: Db::from_conversion(filter_gain),
+        error_lsb: lsb_volts(budget).map(|lsb| error_rti_v.map(|e| e * gain / lsb)),
+        error_measurand: budget
+            .measurand
+            .as_ref()
+            .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
+        error_rti_v,
+    })
 }
 
 fn frequency_result(

@@ -306,11 +306,43 @@ pub struct SourceResult {
     /// The same analysis at the worse end of the temperature range; null
     /// without a range.
     pub at_temperature: Option<TemperatureResult>,
+    /// The error after the converter's digital filter; null without a
+    /// filter and for a DC source (the filter's DC gain is 1).
+    pub after_filter: Option<FilteredError>,
     /// The figure the requirement is judged on (the worse of the reference
     /// temperature and the worse end of the range).
     pub judged: JudgedFigure,
     /// The requirement's outcome; null when no requirement applies.
     pub requirement: Option<RequirementOutcome>,
+    /// The largest analog conversion `|ε|` the source's limit allows (the
+    /// digital filter and a limit's codes or units accounted for); what
+    /// `cmrr yield` checks every trial against. Not part of the JSON.
+    #[serde(skip)]
+    pub max_conversion: Option<f64>,
+}
+
+/// A source's error after the converter's digital filter: the error at the
+/// converter's input times the filter's gain, worst over the band the
+/// source's frequency may drift in. The analog conversion is taken at the
+/// stated frequency.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FilteredError {
+    /// The filter, described.
+    pub filter: String,
+    /// The band searched, Hz (one frequency when the source does not
+    /// drift).
+    pub band_hz: [f64; 2],
+    /// Where in the band the filter passes most, Hz.
+    pub worst_at_hz: f64,
+    /// The filter's rejection there, dB (−20 log10 |H|).
+    pub rejection_db: Db,
+    /// The error in the reading, referred to the input, volts in the
+    /// source's form.
+    pub error_rti_v: Totals<f64>,
+    /// The same in codes; null without a converter.
+    pub error_lsb: Option<Totals<f64>>,
+    /// The same in the measurand's unit; null without a measurand.
+    pub error_measurand: Option<Totals<f64>>,
 }
 
 /// The analysis at the worse end of the operating temperature range, where

@@ -7,7 +7,7 @@ use super::{Check, CheckKind, CornerValue, Db, RequirementOutcome, Totals};
 use crate::engine::{ranking_key, EngineError};
 use crate::model::describe_volts;
 use crate::model::{Budget, Edge, ErrorLimit, Judgement, Requirement, Switching};
-use crate::quantity::{format_fraction, format_si, AmplitudeForm};
+use crate::quantity::{format_fraction, format_plain, format_si, AmplitudeForm};
 use crate::switching::{
     analyse_residue, common_mode_samples, corner_residue, corner_values, harmonic_count,
     rss_envelope, sample_count, settling_time, worst_case_envelope, Measure, Residue,
@@ -191,19 +191,10 @@ pub fn measure_of(source: &Switching) -> Measure {
     }
 }
 
-/// The limit in volts, in the measure's terms.
+/// The limit in volts referred to the input, in the measure's terms
+/// (validation refuses a limit in codes on a switching source).
 fn limit_volts(limit: &ErrorLimit) -> f64 {
-    match limit {
-        ErrorLimit::Volts(a) => a.volts,
-        ErrorLimit::OfFullScale {
-            fraction,
-            full_scale_volts,
-        } => fraction * full_scale_volts,
-        ErrorLimit::OfReading {
-            fraction,
-            reading_volts,
-        } => fraction * reading_volts,
-    }
+    limit.volts_rti(None).map_or(f64::NAN, |a| a.volts)
 }
 
 /// The settling band: the limit, where it bounds every instant (a plain or
@@ -501,7 +492,16 @@ pub(super) fn judge_switching(
             .unwrap_or(&figures)
             .settling
             .clone();
-        switching_check(source, &measure, &limit, judged_rti_v, settles, judgement)
+        let unit = budget.measurand.as_ref().map_or("", |m| m.unit.as_str());
+        switching_check(
+            source,
+            &measure,
+            &limit,
+            judged_rti_v,
+            settles,
+            judgement,
+            unit,
+        )
     });
     let w = &source.waveform;
     let points = sample_count(harmonic_count(source));
@@ -567,6 +567,7 @@ fn switching_check(
     achieved_v: f64,
     settling: Option<Settling>,
     judgement: Judgement,
+    unit: &str,
 ) -> Check {
     let allowed = limit_volts(limit);
     let margin = if achieved_v == 0.0 {
@@ -583,7 +584,10 @@ fn switching_check(
         (Measure::PeakToPeak, _) => "peak-to-peak residue RTI".to_string(),
         _ => "peak residue RTI".to_string(),
     };
-    let mut achieved = format!("{what} {}", describe_fraction_or_volts(achieved_v, limit));
+    let mut achieved = format!(
+        "{what} {}",
+        describe_fraction_or_volts(achieved_v, limit, unit)
+    );
     if let Some(s) = settling {
         let phrase = |t: Option<f64>, after: &str| match t {
             Some(t) => format!("settles {} after {after}", format_si(t, "s")),
@@ -603,7 +607,10 @@ fn switching_check(
         kind: CheckKind::SwitchingError {
             source: source.name.clone(),
         },
-        limit: format!("{what} ≤ {}", describe_fraction_or_volts(allowed, limit)),
+        limit: format!(
+            "{what} ≤ {}",
+            describe_fraction_or_volts(allowed, limit, unit)
+        ),
         achieved,
         margin_db: margin,
         allowed_cmrr_db: Db(20.0 * (source.waveform.step_v().abs() / allowed).log10()),
@@ -613,7 +620,7 @@ fn switching_check(
 
 /// A residue of `volts` in the limit's terms: a voltage in its form, or
 /// the voltage with its share of full scale.
-fn describe_fraction_or_volts(volts: f64, limit: &ErrorLimit) -> String {
+fn describe_fraction_or_volts(volts: f64, limit: &ErrorLimit, unit: &str) -> String {
     match limit {
         ErrorLimit::Volts(a) => describe_volts(volts, a.form),
         ErrorLimit::OfFullScale {
@@ -630,5 +637,12 @@ fn describe_fraction_or_volts(volts: f64, limit: &ErrorLimit) -> String {
             format_fraction(volts / reading_volts),
             format_si(*reading_volts, "V")
         ),
+        ErrorLimit::InMeasurand { volts_per_unit, .. } => format!(
+            "{} ({} {})",
+            format_si(volts, "V"),
+            format_plain(volts / volts_per_unit),
+            unit
+        ),
+        ErrorLimit::Codes { .. } => format_si(volts, "V"),
     }
 }

@@ -212,6 +212,9 @@ impl Validator<'_> {
             );
         }
         let pins = self.pins(&raw.input_resistance, &raw.input_capacitance, path, stage);
+        if let Some(filter) = &raw.filter {
+            self.converter_filter = self.digital_filter(filter, &format!("{path}.filter"));
+        }
         let cmrr_reciprocal = raw.cmrr.as_ref().and_then(|c| {
             let db = self.cmrr_db(c, &format!("{path}.cmrr"))?;
             Some(self.cmrr_bound(db, path, stage, "converter CMRR"))

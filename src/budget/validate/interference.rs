@@ -9,7 +9,52 @@ use crate::model::{
     Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Production,
     Requirement, SweepRange,
 };
-use crate::quantity::{parse_quantity, Dimension, SpreadShape};
+use crate::quantity::{format_si, parse_quantity, AmplitudeForm, Dimension, SpreadShape};
+
+/// The words that count a converter's codes in a limit.
+const CODE_UNITS: [&str; 6] = ["lsb", "lsbs", "code", "codes", "count", "counts"];
+
+/// How closely a stated full scale must agree with the measurand's rated
+/// output (relative).
+const FULL_SCALE_AGREEMENT: f64 = 1e-6;
+
+/// `1 LSB`, `0.5 counts rms`, `0.005 kg`: a plain number, one unit word and
+/// an optional rms/pk/pp form; `None` for anything else.
+fn counted(text: &str) -> Option<(f64, String, Option<AmplitudeForm>)> {
+    let end = text
+        .find(|c: char| !(c.is_ascii_digit() || matches!(c, '.' | 'e' | 'E' | '+' | '-')))
+        .unwrap_or(text.len());
+    let amount: f64 = text[..end].trim().parse().ok()?;
+    let mut words: Vec<&str> = text[end..].split_whitespace().collect();
+    let form = match words.last().copied() {
+        Some("rms") => Some(AmplitudeForm::Rms),
+        Some("pk" | "peak") => Some(AmplitudeForm::Peak),
+        Some("pp" | "p-p") => Some(AmplitudeForm::PeakToPeak),
+        _ => None,
+    };
+    if form.is_some() {
+        words.pop();
+    }
+    match words.as_slice() {
+        [unit] => Some((amount, unit.to_string(), form)),
+        _ => None,
+    }
+}
+
+/// `excitation/2` → `Some(Some(0.5))`; `excitation/…` that is not a share
+/// → `Some(None)`; anything else → `None`.
+fn excitation_share(text: &str) -> Option<Option<f64>> {
+    let rest = text.trim().strip_prefix("excitation")?.trim();
+    if rest.is_empty() {
+        return Some(Some(1.0));
+    }
+    let divisor = rest.strip_prefix('/')?.trim().parse::<f64>().ok();
+    Some(
+        divisor
+            .filter(|d| d.is_finite() && *d >= 1.0)
+            .map(|d| 1.0 / d),
+    )
+}
 
 impl Validator<'_> {
     pub(super) fn amplitude(&mut self, scalar: &Scalar, path: &str) -> Option<Amplitude> {
@@ -34,7 +79,10 @@ impl Validator<'_> {
             false,
         );
         let amplitude_path = format!("{path}.amplitude");
-        let amplitude = self.amplitude(&raw.amplitude, &amplitude_path);
+        let amplitude = match excitation_share(&raw.amplitude.0) {
+            Some(share) => self.excitation_amplitude(share, &raw.amplitude, &amplitude_path),
+            None => self.amplitude(&raw.amplitude, &amplitude_path),
+        };
         let (frequency, amplitude) = (frequency?, amplitude?);
         let text = raw.amplitude.0.trim();
         if frequency.value == 0.0 && amplitude.form.is_some() {
@@ -60,22 +108,127 @@ impl Validator<'_> {
                 "name it, e.g. `name: mains hum on the cable`",
             );
         }
+        let frequency_drift = raw
+            .frequency_drift
+            .as_ref()
+            .and_then(|d| self.frequency_drift(d, path, frequency.value))
+            .unwrap_or(0.0);
         Some(Interference {
             name: raw.name.trim().to_string(),
             amplitude,
             frequency_hz: frequency.value,
             max_error,
+            frequency_drift,
         })
     }
 
-    /// An allowed error: a voltage, or a fraction of full scale. The full
-    /// scale is resolved later against the requirement.
+    /// A source's frequency drift, a fraction below 50 %; refused on a DC
+    /// source.
+    fn frequency_drift(&mut self, raw: &Scalar, path: &str, frequency_hz: f64) -> Option<f64> {
+        let at = format!("{path}.frequency_drift");
+        let drift = self.quantity(raw, &at, Dimension::Fraction, Range::NonNegative, false)?;
+        if frequency_hz == 0.0 {
+            self.problem(
+                &at,
+                "a DC source has no frequency to drift",
+                "remove `frequency_drift`, or give the source its frequency",
+            );
+            return None;
+        }
+        if drift.value >= 0.5 {
+            self.problem(
+                &at,
+                format!("a drift of {} is not a frequency tolerance", raw.0.trim()),
+                "give how far the frequency may stray either side, below 50 %, e.g. `frequency_drift: 1 %`",
+            );
+            return None;
+        }
+        Some(drift.value)
+    }
+
+    /// A DC common mode stated as a share of the measurand's bridge
+    /// excitation (`excitation/2`).
+    fn excitation_amplitude(
+        &mut self,
+        share: Option<f64>,
+        raw: &Scalar,
+        path: &str,
+    ) -> Option<Amplitude> {
+        let text = raw.0.trim();
+        let Some(share) = share else {
+            self.problem(
+                path,
+                format!("`{text}` is not a share of the excitation"),
+                "write `excitation/2` (a bridge excited from ground: its common mode is half the excitation), or `excitation/N` with N a number from 1 up",
+            );
+            return None;
+        };
+        let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation_volts) else {
+            self.problem(
+                path,
+                format!("`{text}` needs a bridge excitation, and the measurand names none"),
+                "add `measurand: {unit: …, bridge: {sensitivity: …, excitation: 5 V, capacity: …}}`, or give the amplitude in volts",
+            );
+            return None;
+        };
+        Some(Amplitude {
+            volts: excitation * share,
+            form: None,
+        })
+    }
+
+    /// An allowed error: a voltage, a fraction of full scale, a number of
+    /// the converter's codes (`1 LSB`, `2 counts`), or an amount of the
+    /// measured quantity (`0.005 kg`). The full scale is resolved later
+    /// against the requirement.
     pub(super) fn error_limit(
         &mut self,
         scalar: &Scalar,
         path: &str,
         full_scale: Option<f64>,
     ) -> Option<ErrorLimit> {
+        let text = scalar.0.trim();
+        if let Some((amount, unit, form)) = counted(text) {
+            if CODE_UNITS.contains(&unit.to_ascii_lowercase().as_str()) {
+                if !self.ends_in_converter {
+                    self.problem(
+                        path,
+                        format!("`{text}` counts the converter's codes, but the chain does not end in a converter"),
+                        "add the `adc` stage that ends the chain, or give the error in volts referred to the input (e.g. `1 uV rms`)",
+                    );
+                    return None;
+                }
+                if !(amount.is_finite() && amount > 0.0) {
+                    self.problem(
+                        path,
+                        format!("`{text}` is not a positive number of codes"),
+                        "give e.g. `1 LSB` or `0.5 LSB rms`",
+                    );
+                    return None;
+                }
+                return Some(ErrorLimit::Codes {
+                    codes: amount,
+                    form,
+                });
+            }
+            if let Some(measurand) = &self.measurand {
+                if unit == measurand.unit {
+                    if !(amount.is_finite() && amount > 0.0) {
+                        self.problem(
+                            path,
+                            format!("`{text}` is not a positive amount"),
+                            format!("give e.g. `0.01 {unit}`"),
+                        );
+                        return None;
+                    }
+                    return Some(ErrorLimit::InMeasurand {
+                        amount,
+                        form,
+                        volts_per_unit: measurand.volts_per_unit,
+                    });
+                }
+            }
+        }
         if parse_quantity(&scalar.0, Dimension::Fraction).is_ok() {
             let q = self.quantity(scalar, path, Dimension::Fraction, Range::Positive, false)?;
             return Some(ErrorLimit::OfFullScale {
@@ -84,10 +237,19 @@ impl Validator<'_> {
             });
         }
         if let Err(error) = parse_quantity(&scalar.0, Dimension::Voltage) {
+            let in_units = match &self.measurand {
+                Some(m) => format!(", in the measurand's unit (e.g. `0.01 {}`)", m.unit),
+                None => String::new(),
+            };
+            let codes = if self.ends_in_converter {
+                ", in the converter's codes (e.g. `1 LSB`)"
+            } else {
+                ""
+            };
             self.problem(
                 path,
                 error.to_string(),
-                "write a voltage referred to the input (e.g. `1 uV rms`, `0.5 uV`) or a fraction of full scale (e.g. `10 ppm`, `0.01 %`)",
+                format!("write a voltage referred to the input (e.g. `1 uV rms`, `0.5 uV`), a fraction of full scale (e.g. `10 ppm`, `0.01 %`){codes}{in_units}"),
             );
             return None;
         }
@@ -119,7 +281,7 @@ impl Validator<'_> {
     }
 
     pub(super) fn requirement(&mut self, raw: &RawRequirement) -> Option<Requirement> {
-        let full_scale_volts = raw.full_scale.as_ref().and_then(|f| {
+        let stated = raw.full_scale.as_ref().and_then(|f| {
             self.formless_voltage(
                 f,
                 "requirement.full_scale",
@@ -130,6 +292,21 @@ impl Validator<'_> {
                 ),
             )
         });
+        let rated = self.measurand.as_ref().and_then(|m| m.full_scale_volts);
+        if let (Some(stated), Some(rated)) = (stated, rated) {
+            if (stated - rated).abs() > FULL_SCALE_AGREEMENT * rated {
+                self.problem(
+                    "requirement.full_scale",
+                    format!(
+                        "the full scale {} disagrees with the measurand's rated output {}",
+                        format_si(stated, "V"),
+                        format_si(rated, "V")
+                    ),
+                    "leave `full_scale` out (the measurand's rating sets it), or correct one of the two",
+                );
+            }
+        }
+        let full_scale_volts = stated.or(rated);
         let max_error = raw
             .max_error
             .as_ref()
@@ -208,8 +385,10 @@ impl Validator<'_> {
                 {
                     self.problem(&path, format!("the allowed error has no rms, peak or peak-to-peak form, but `{}` is alternating", source.name), "add the form, e.g. `1 uV rms` or `2 uV pp`");
                 }
-                Some(limit @ ErrorLimit::Volts(_))
-                    if limit.allowed_conversion(&source.amplitude).is_none() =>
+                Some(limit)
+                    if limit
+                        .allowed_conversion(&source.amplitude, Some(1.0))
+                        .is_none() =>
                 {
                     let fix = if own {
                         "give the DC error as a plain voltage or rms/peak value, e.g. `50 uV`"
@@ -222,6 +401,28 @@ impl Validator<'_> {
                 _ => {}
             }
         }
+        self.check_filter_covers(sources);
+    }
+
+    /// A response table is not extrapolated: every alternating source's
+    /// band must lie within it.
+    fn check_filter_covers(&mut self, sources: &[Interference]) {
+        let Some(filter) = self.converter_filter.clone() else {
+            return;
+        };
+        for (i, source) in sources.iter().enumerate() {
+            if source.frequency_hz == 0.0 {
+                continue;
+            }
+            let [lo, hi] = source.frequency_band();
+            if let Err(error) = filter.worst_gain(lo, hi) {
+                self.problem(
+                    &format!("interference[{i}].frequency"),
+                    format!("`{}`: {error}", source.name),
+                    "extend the converter filter's table to cover the source's frequency (and its drift), or use a `sinc` filter",
+                );
+            }
+        }
     }
 
     pub(super) fn measurand(&mut self, raw: &RawMeasurand) -> Option<Measurand> {
@@ -231,6 +432,17 @@ impl Validator<'_> {
                 "measurand.unit",
                 "the measured quantity's unit is empty",
                 "name it, e.g. `unit: kg`",
+            );
+            return None;
+        }
+        let taken = CODE_UNITS.contains(&unit.to_ascii_lowercase().as_str())
+            || ["%", "ppm", "V"].contains(&unit.as_str())
+            || unit.split_whitespace().count() != 1;
+        if taken {
+            self.problem(
+                "measurand.unit",
+                format!("`{unit}` cannot name the measured quantity: limits already read it as codes, a fraction of full scale or a voltage, or it is more than one word"),
+                "name the quantity's unit in one word, e.g. `unit: kg`, `unit: degC`, `unit: A`",
             );
             return None;
         }
@@ -246,6 +458,14 @@ impl Validator<'_> {
                 .value
             }
             (None, Some(bridge)) => {
+                if raw.capacity.is_some() {
+                    self.problem(
+                        "measurand.capacity",
+                        "a bridge's capacity belongs in its rating",
+                        "move `capacity` into `bridge: {…}`",
+                    );
+                    return None;
+                }
                 let sensitivity = self.quantity(
                     &bridge.sensitivity,
                     "measurand.bridge.sensitivity",
@@ -267,7 +487,14 @@ impl Validator<'_> {
                     Range::Positive,
                     false,
                 );
-                sensitivity?.value * excitation?.value / capacity?.value
+                let (sensitivity, excitation, capacity) =
+                    (sensitivity?.value, excitation?.value, capacity?.value);
+                return Some(Measurand {
+                    unit,
+                    volts_per_unit: sensitivity * excitation / capacity,
+                    full_scale_volts: Some(sensitivity * excitation),
+                    excitation_volts: Some(excitation),
+                });
             }
             _ => {
                 self.problem(
@@ -278,9 +505,25 @@ impl Validator<'_> {
                 return None;
             }
         };
+        let full_scale_volts = match &raw.capacity {
+            Some(c) => Some(
+                self.quantity(
+                    c,
+                    "measurand.capacity",
+                    Dimension::Number,
+                    Range::Positive,
+                    false,
+                )?
+                .value
+                    * volts_per_unit,
+            ),
+            None => None,
+        };
         Some(Measurand {
             unit,
             volts_per_unit,
+            full_scale_volts,
+            excitation_volts: None,
         })
     }
 

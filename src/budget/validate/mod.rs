@@ -3,6 +3,7 @@
 //! and collect every problem with its position.
 
 mod amplifiers;
+mod filter;
 mod interference;
 mod pair;
 mod source;
@@ -19,8 +20,8 @@ use crate::engine::MAX_STAGES;
 /// with its corner search at up to three temperatures.
 pub const MAX_POINTS: usize = 1000;
 use crate::model::{
-    Budget, Interference, ParamId, Parameter, Parameters, Presentation, Safety, Switching,
-    TemperatureRange, Variation,
+    Budget, DigitalFilter, Interference, Measurand, ParamId, Parameter, Parameters, Presentation,
+    Safety, Switching, TemperatureRange, Variation,
 };
 use crate::quantity::{parse_quantity, Dimension, Quantity};
 use crate::stage::Stage;
@@ -36,6 +37,9 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
         problems: Vec::new(),
         parameters: Parameters::new(),
         temperature: None,
+        measurand: None,
+        converter_filter: None,
+        ends_in_converter: false,
     };
     if !v.bounded(&raw) {
         return Err(v.problems);
@@ -72,6 +76,15 @@ struct Validator<'a> {
     parameters: Parameters,
     /// The budget's temperature range, read before the chain.
     temperature: Option<TemperatureRange>,
+    /// The measured quantity, read before the requirement and the sources
+    /// (their limits and amplitudes may be stated in its terms).
+    measurand: Option<Measurand>,
+    /// The digital filter of the converter ending the chain, when it
+    /// states one.
+    converter_filter: Option<DigitalFilter>,
+    /// Whether the chain ends in a converter (a limit may then be stated
+    /// in its codes).
+    ends_in_converter: bool,
 }
 
 impl Validator<'_> {
@@ -326,6 +339,7 @@ impl Validator<'_> {
             .as_ref()
             .and_then(|t| self.temperature_range(t));
         let chain = self.chain(&raw.chain);
+        self.measurand = raw.measurand.as_ref().and_then(|m| self.measurand(m));
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
         let full_scale = requirement.as_ref().and_then(|r| r.full_scale_volts);
         let interference: Vec<Interference> = raw
@@ -386,7 +400,8 @@ impl Validator<'_> {
                 mains_referenced: raw.mains_referenced.unwrap_or(false),
             },
             temperature: self.temperature,
-            measurand: raw.measurand.as_ref().and_then(|m| self.measurand(m)),
+            measurand: self.measurand.take(),
+            digital_filter: self.converter_filter.take(),
             sweep: raw
                 .sweep
                 .as_ref()
@@ -458,6 +473,7 @@ impl Validator<'_> {
                             "move the `adc` to the end of the chain",
                         );
                     }
+                    self.ends_in_converter = true;
                     self.adc(adc, &format!("{path}.adc"), index)
                         .map(|s| (s, adc.label.clone(), "converter"))
                 }

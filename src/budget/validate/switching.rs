@@ -315,6 +315,14 @@ impl Validator<'_> {
                 }
             }
         };
+        if let Some(ErrorLimit::Codes { .. }) = max_error {
+            self.problem(
+                &limit_path,
+                "a switching residue is judged at the converter's input, in time, so its limit cannot be counted in codes",
+                "give this source its own `max_error` in volts referred to the input, as a fraction of full scale, or in the measurand's unit",
+            );
+            return None;
+        }
         if let Some(ErrorLimit::OfFullScale {
             full_scale_volts, ..
         }) = max_error
