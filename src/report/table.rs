@@ -4,9 +4,9 @@
 use super::layout::styled;
 use super::{
     ContributionRow, Corner, FilteredError, FrequencyResult, JudgedFigure, Report,
-    RequirementOutcome, SourceResult, Status, TemperatureResult,
+    RequirementOutcome, SourceResult, Status, TemperatureResult, Totals,
 };
-use crate::model::describe_volts;
+use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
 use crate::verdict::TOTALS;
 use tabled::builder::Builder;
@@ -79,19 +79,12 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
         if let Some(ppm) = &result.error_fs_ppm {
             row.push(format_fraction(ppm.judged(judgement) * 1e-6));
         }
-        if let Some(lsb) = &result.error_lsb {
-            row.push(format!(
-                "{} LSB{suffix}",
-                plain_number(lsb.judged(judgement))
-            ));
-        }
-        if let Some(error) = &result.error_measurand {
-            let unit = measurand_unit.unwrap_or("");
-            row.push(format!(
-                "{} {unit}{suffix}",
-                plain_number(error.judged(judgement))
-            ));
-        }
+        row.extend(reading_cells(
+            (result.error_lsb.as_ref(), result.error_measurand.as_ref()),
+            judgement,
+            &suffix,
+            measurand_unit,
+        ));
         totals.push_record(row);
     }
     let filtered = result
@@ -160,24 +153,45 @@ fn filter_block(
             judgement.label().to_string(),
             describe_volts(filtered.error_rti_v.judged(judgement), form),
         ];
-        if let Some(lsb) = &filtered.error_lsb {
-            row.push(format!(
-                "{} LSB{suffix}",
-                plain_number(lsb.judged(judgement))
-            ));
-        }
-        if let Some(error) = &filtered.error_measurand {
-            let unit = measurand_unit.unwrap_or("");
-            row.push(format!(
-                "{} {unit}{suffix}",
-                plain_number(error.judged(judgement))
-            ));
-        }
+        row.extend(reading_cells(
+            (
+                filtered.error_lsb.as_ref(),
+                filtered.error_measurand.as_ref(),
+            ),
+            judgement,
+            &suffix,
+            measurand_unit,
+        ));
         table.push_record(row);
     }
     out.push_str(&styled(table, 1..usize::MAX));
     out.push('\n');
     out
+}
+
+/// The error in codes and in the measurand's unit, each where given, for
+/// one total (`suffix` is the source's form, e.g. ` rms`).
+fn reading_cells(
+    (lsb, measurand): (Option<&Totals<f64>>, Option<&Totals<f64>>),
+    judgement: Judgement,
+    suffix: &str,
+    measurand_unit: Option<&str>,
+) -> Vec<String> {
+    let unit = measurand_unit.unwrap_or("");
+    let mut cells = Vec::new();
+    if let Some(lsb) = lsb {
+        cells.push(format!(
+            "{} LSB{suffix}",
+            plain_number(lsb.judged(judgement))
+        ));
+    }
+    if let Some(error) = measurand {
+        cells.push(format!(
+            "{} {unit}{suffix}",
+            plain_number(error.judged(judgement))
+        ));
+    }
+    cells
 }
 
 /// A number with three significant digits, in plain or scientific form.
