@@ -511,12 +511,10 @@ fn source_result(
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
         .unwrap_or_default();
-    let after_filter = filtered_error(budget, source, conversion, gain);
+    let (filter_gain, after_filter) = filtered_error(budget, source, conversion, gain).unzip();
     let scale = ReadingScale {
         volts_per_code: lsb_volts(budget).map(|lsb| lsb / gain),
-        filter_gain: after_filter
-            .as_ref()
-            .map(|f| 10f64.powf(-f.rejection_db.0 / 20.0)),
+        filter_gain,
         unit: budget.measurand.as_ref().map_or("", |m| m.unit.as_str()),
     };
     let limit = source.max_error.or(requirement.and_then(|r| r.max_error));
@@ -556,13 +554,14 @@ fn source_result(
 
 /// The error `source` leaves after the converter's digital filter, from
 /// the analog conversion totals and the chain's differential gain `gain`
-/// at the source's frequency; `None` without a filter or for a DC source.
+/// at the source's frequency, beside the filter's worst gain `|H|`; `None`
+/// without a filter or for a DC source.
 fn filtered_error(
     budget: &Budget,
     source: &Interference,
     conversion: Totals<f64>,
     gain: f64,
-) -> Option<FilteredError> {
+) -> Option<(f64, FilteredError)> {
     let filter = budget.digital_filter.as_ref()?;
     if source.frequency_hz == 0.0 {
         return None;
@@ -571,7 +570,7 @@ fn filtered_error(
     // Validation has checked that a table covers the band.
     let (filter_gain, worst_at_hz) = filter.worst_gain(band_hz[0], band_hz[1]).ok()?;
     let error_rti_v = conversion.map(|e| e * source.amplitude.volts * filter_gain);
-    Some(FilteredError {
+    let filtered = FilteredError {
         filter: filter.describe(),
         band_hz,
         worst_at_hz,
@@ -582,7 +581,8 @@ fn filtered_error(
             .as_ref()
             .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
         error_rti_v,
-    })
+    };
+    Some((filter_gain, filtered))
 }
 
 fn frequency_result(
