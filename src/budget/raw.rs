@@ -421,6 +421,16 @@ pub struct RawInterference {
     pub max_error: Option<Scalar>,
     #[serde(default)]
     pub frequency_drift: Option<Scalar>,
+    #[serde(default)]
+    pub tare: Option<RawTare>,
+}
+
+/// A DC source's offset removed at calibration, and how far its common
+/// mode may move since.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawTare {
+    pub varies_by: Scalar,
 }
 
 /// A switching common-mode waveform: a periodic trapezoid.

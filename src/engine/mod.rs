@@ -11,6 +11,7 @@ pub mod lane;
 pub mod linalg;
 mod mixed_mode;
 mod settle;
+mod tare;
 
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
@@ -22,3 +23,4 @@ pub use headroom::{check_headroom, HeadroomFinding};
 pub use kernel::ChainKernel;
 pub use mixed_mode::MixedMode;
 pub use settle::settle;
+pub use tare::{tare_residual, TareResidual};

@@ -198,6 +198,21 @@ pub struct Interference {
     /// frequency within ±1 %); 0 when it is exact. A digital filter's
     /// notch is judged at the worst frequency of that band.
     pub frequency_drift: f64,
+    /// When the constant offset this (DC) source leaves is removed by a
+    /// tare or zero calibration: what remains is judged instead.
+    pub tare: Option<Tare>,
+}
+
+/// A DC source's offset removed by a tare (zero calibration) at the
+/// reference temperature: each unit reads its own offset then and
+/// subtracts it, so what is left is the offset's change since, from the
+/// temperature moving the parts' values (their TCRs) and from the common
+/// mode itself moving (excitation drift, a ground that shifts).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tare {
+    /// How far the common mode may move from its value at calibration,
+    /// volts (either way).
+    pub varies_by_v: f64,
 }
 
 impl Interference {

@@ -8,7 +8,7 @@ mod params;
 pub use budget::{
     describe_volts, Amplitude, Budget, Edge, ErrorLimit, Interference, Judgement, Measurand,
     MinimumCmrr, NullTrim, Production, Requirement, Safety, SampleWindow, SweepRange, Switching,
-    TemperatureRange, Trapezoid,
+    Tare, TemperatureRange, Trapezoid,
 };
 pub use digital_filter::{DigitalFilter, FilterError, ResponseTable, SincFilter, SincForm};
 pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

@@ -147,6 +147,11 @@ pub struct YieldReport {
     /// once, at nominal values and the corners (`cmrr budget`,
     /// `cmrr residue`), not per trial.
     pub not_counted: Vec<String>,
+    /// Tared sources whose limit the yield leaves out: what a tare leaves
+    /// needs each unit at two temperatures, and is judged on the linear
+    /// bound and a corner search (`cmrr budget`). Their error percentiles
+    /// are of the offset before the tare.
+    pub tared_not_counted: Vec<String>,
 }
 
 /// Why `cmrr yield` failed.
@@ -352,6 +357,12 @@ pub fn production_yield_judged(
         status: verdict.verdict.status,
         headroom: verdict.headroom.clone(),
         not_counted: verdict.switching.iter().map(|s| s.source.clone()).collect(),
+        tared_not_counted: budget
+            .interference
+            .iter()
+            .filter(|s| s.tare.is_some())
+            .map(|s| s.name.clone())
+            .collect(),
     };
     Ok((report, run))
 }

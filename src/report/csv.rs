@@ -2,7 +2,7 @@
 //! interference source and every further frequency. Units are in the
 //! headers; an infinite CMRR is written `inf`.
 
-use super::{ContributionRow, Db, FilteredError, Report, Totals};
+use super::{ContributionRow, Db, FilteredError, Report, TaredError, Totals};
 
 const HEADER: &str = "source,frequency_hz,amplitude_v,amplitude_form,row,contributor,stage,value,kind,cmrr_db,error_rti_v,error_rto_v,share";
 
@@ -34,6 +34,14 @@ pub fn render_csv(report: &Report) -> String {
                 filtered,
                 &result.cmrr_db,
                 result.differential_gain,
+            );
+        }
+        if let Some(tared) = &result.after_tare {
+            tare_rows(
+                &mut out,
+                &lead,
+                tared,
+                (result.amplitude_v, result.differential_gain),
             );
         }
     }
@@ -136,6 +144,48 @@ fn filter_rows(
             filtered.filter.clone(),
             "digital filter".to_string(),
             db(Db(cmrr.judged(judgement).0 + filtered.rejection_db.0)),
+            number(rti),
+            number(rti * gain),
+            String::new(),
+        ];
+        push_line(out, lead, &fields);
+    }
+}
+
+/// What a tare leaves: `row` is `after tare`, one line per contributor
+/// (`contributor` named, `kind` systematic or random) and per total
+/// (`contributor` the total's name, `kind` empty); `cmrr_db` is the
+/// residual over the amplitude, the errors the residual.
+fn tare_rows(
+    out: &mut String,
+    lead: &[String; 4],
+    tared: &TaredError,
+    (amplitude, gain): (f64, f64),
+) {
+    for row in &tared.contributions {
+        let rti = row.error_rti_v.unwrap_or_default();
+        let fields = [
+            "after tare".to_string(),
+            row.name.clone(),
+            row.stage.clone(),
+            row.value.clone(),
+            row.kind.name().to_string(),
+            db(row.cmrr_db),
+            number(rti),
+            number(rti * gain),
+            number(row.share),
+        ];
+        push_line(out, lead, &fields);
+    }
+    for judgement in crate::verdict::TOTALS {
+        let rti = tared.residual_rti_v.judged(judgement);
+        let fields = [
+            "after tare".to_string(),
+            judgement.label().to_lowercase(),
+            String::new(),
+            String::new(),
+            String::new(),
+            db(Db::from_conversion(rti / amplitude)),
             number(rti),
             number(rti * gain),
             String::new(),

@@ -18,7 +18,7 @@ pub mod yield_report;
 pub use crate::verdict::{
     cautions as cautions_for, Check, ContributionKind, ContributionRow, Corner, CornerValue, Db,
     FilteredError, FrequencyResult, JudgedFigure, Report, RequirementOutcome, SourceResult, Status,
-    TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
+    TaredError, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 
 use serde::Serialize;

@@ -4,7 +4,7 @@
 use super::layout::styled;
 use super::{
     ContributionRow, Corner, FilteredError, FrequencyResult, JudgedFigure, Report,
-    RequirementOutcome, SourceResult, Status, TemperatureResult, Totals,
+    RequirementOutcome, SourceResult, Status, TaredError, TemperatureResult, Totals,
 };
 use crate::model::{describe_volts, Judgement};
 use crate::quantity::{format_db, format_fraction, format_si, AmplitudeForm};
@@ -92,12 +92,17 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
         .as_ref()
         .map(|f| filter_block(f, form, measurand_unit))
         .unwrap_or_default();
+    let tared = result
+        .after_tare
+        .as_ref()
+        .map(|t| tare_block(t, measurand_unit))
+        .unwrap_or_default();
     out.push_str(&section_end(
         (totals, &filtered),
         &result.corner,
         result.at_temperature.as_ref(),
         form,
-        (&result.judged, result.requirement.as_ref()),
+        (&tared, &result.judged, result.requirement.as_ref()),
     ));
     out
 }
@@ -166,6 +171,66 @@ fn filter_block(
     }
     out.push_str(&styled(table, 1..usize::MAX));
     out.push('\n');
+    out
+}
+
+/// What a tare leaves of a DC source's offset: where it was calibrated,
+/// its contributors and its totals.
+fn tare_block(tared: &TaredError, measurand_unit: Option<&str>) -> String {
+    let calibrated = tared.calibrated_at_k.map_or_else(
+        || "at the one temperature the budget states".to_string(),
+        |k| format!("at {}", celsius(k)),
+    );
+    let worst = match tared.temperature_k {
+        Some(k) => format!("worst at {}", celsius(k)),
+        None => "worst at the calibration's own temperature".to_string(),
+    };
+    let mut out = format!(
+        "after tare (zeroed {calibrated}; the common mode may move by {} since): residual {worst}\n",
+        format_si(tared.varies_by_v, "V"),
+    );
+    if tared.contributions.is_empty() {
+        out.push_str("nothing is left: no part drifts and the common mode does not move\n");
+    } else {
+        out.push_str(&contribution_table(&tared.contributions, None));
+        out.push('\n');
+    }
+    let mut table = Builder::default();
+    let mut header = vec!["total", "residual RTI"];
+    if tared.residual_fs_ppm.is_some() {
+        header.push("residual of full scale");
+    }
+    if tared.residual_lsb.is_some() {
+        header.push("residual (codes)");
+    }
+    if tared.residual_measurand.is_some() {
+        header.push("residual (measurand)");
+    }
+    table.push_record(header);
+    for judgement in TOTALS {
+        let mut row = vec![
+            judgement.label().to_string(),
+            format_si(tared.residual_rti_v.judged(judgement), "V"),
+        ];
+        if let Some(ppm) = &tared.residual_fs_ppm {
+            row.push(format_fraction(ppm.judged(judgement) * 1e-6));
+        }
+        row.extend(reading_cells(
+            (
+                tared.residual_lsb.as_ref(),
+                tared.residual_measurand.as_ref(),
+            ),
+            judgement,
+            "",
+            measurand_unit,
+        ));
+        table.push_record(row);
+    }
+    out.push_str(&styled(table, 1..usize::MAX));
+    out.push_str(&format!(
+        "\n  (worst corner: a directed search, {} corners solved at both temperatures)\n",
+        tared.corners_solved
+    ));
     out
 }
 
@@ -264,7 +329,7 @@ fn frequency_section(result: &FrequencyResult) -> String {
         &result.corner,
         result.at_temperature.as_ref(),
         None,
-        (&result.judged, result.requirement.as_ref()),
+        ("", &result.judged, result.requirement.as_ref()),
     ));
     out
 }
@@ -317,17 +382,16 @@ fn contribution_table(rows: &[ContributionRow], form: Option<AmplitudeForm>) -> 
     styled(table, 3..usize::MAX)
 }
 
-/// The totals table, the corner line and the requirement, which end every
-/// section.
 /// The end of a section: the totals table and what follows it (`after`,
 /// e.g. the error after a digital filter), the worst corner, the worse end
-/// of the temperature range and the requirement's outcome.
+/// of the temperature range, what is judged instead of the totals (`judged
+/// instead`, e.g. what a tare leaves) and the requirement's outcome.
 fn section_end(
     (totals, after): (Builder, &str),
     corner: &Corner,
     at_temperature: Option<&TemperatureResult>,
     form: Option<AmplitudeForm>,
-    (judged, requirement): (&JudgedFigure, Option<&RequirementOutcome>),
+    (judged_instead, judged, requirement): (&str, &JudgedFigure, Option<&RequirementOutcome>),
 ) -> String {
     let mut out = styled(totals, 1..usize::MAX);
     out.push('\n');
@@ -336,6 +400,7 @@ fn section_end(
     if let Some(result) = at_temperature {
         out.push_str(&temperature_lines(result, form));
     }
+    out.push_str(judged_instead);
     if let Some(outcome) = requirement {
         out.push_str(&requirement_lines(outcome, judged));
     }

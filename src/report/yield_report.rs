@@ -131,6 +131,12 @@ pub fn render_yield_table(report: &YieldReport) -> String {
             quoted_list(&report.not_counted)
         ));
     }
+    if !report.tared_not_counted.is_empty() {
+        out.push_str(&format!(
+            "not counted in the yield: the limit of the tared source(s) {}; what the tare leaves is judged on the linear bound and a corner search (`cmrr budget`), and the error percentiles above are of the offset before the tare\n",
+            quoted_list(&report.tared_not_counted)
+        ));
+    }
     if let Some(f) = report.frequencies.iter().min_by(|a, b| {
         a.worst_corner
             .cmrr_db

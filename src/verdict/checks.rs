@@ -89,6 +89,8 @@ pub(super) struct ReadingScale<'a> {
     /// `|H|` of the converter's digital filter, worst over the source's
     /// band; `None` where no filter acts.
     pub filter_gain: Option<f64>,
+    /// Whether the error judged is what a tare leaves.
+    pub tared: bool,
     /// The measurand's unit, when the budget names one.
     pub unit: &'a str,
 }
@@ -130,10 +132,10 @@ pub(super) fn error_check(
         volts: conversion * scale.gain() * source.volts,
         form: source.form,
     };
-    let filtered = if scale.filter_gain.is_some() {
-        " after the digital filter"
-    } else {
-        ""
+    let filtered = match (scale.filter_gain.is_some(), scale.tared) {
+        (true, _) => " after the digital filter",
+        (false, true) => " after tare",
+        (false, false) => "",
     };
     let (limit_text, achieved) = match limit {
         ErrorLimit::Volts(amplitude) => (

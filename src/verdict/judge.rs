@@ -10,8 +10,8 @@ use super::{
     JudgedFigure, Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 use crate::engine::{
-    analyse_point_at, check_headroom, ranking_key, worst_corners, CornerSearch, EngineError,
-    PointAnalysis,
+    analyse_point_at, check_headroom, ranking_key, tare_residual, worst_corners, CornerSearch,
+    EngineError, PointAnalysis, TareResidual,
 };
 use crate::model::{Amplitude, Budget, Interference, Judgement, Presentation, Requirement};
 use crate::quantity::{format_db, format_quantity, Dimension};
@@ -107,6 +107,9 @@ struct Analyses {
     /// The temperature of `shown`, kelvin; `None` at the reference.
     shown_k: Option<f64>,
     worse_end: Option<(f64, Analysed)>,
+    /// Every end of the range judged, kelvin and analysis (a tared
+    /// source's residual is worst at its own end).
+    ends: Vec<(f64, Analysed)>,
 }
 
 impl Analyses {
@@ -120,6 +123,7 @@ impl Analyses {
         judgement: Judgement,
     ) -> Analyses {
         let mut worse_end: Option<(f64, Analysed)> = None;
+        let all = ends.clone();
         for (kelvin, analysis) in ends {
             let worse = worse_end.as_ref().is_none_or(|(_, w)| {
                 conversion_totals(&analysis).judged(judgement)
@@ -133,6 +137,7 @@ impl Analyses {
             shown,
             shown_k,
             worse_end,
+            ends: all,
         }
     }
 
@@ -212,7 +217,7 @@ pub fn judge_in_full(
     let mut results = Vec::new();
     for source in &budget.interference {
         let analyses = analyses_at(source.frequency_hz);
-        results.push(source_result(budget, source, analyses, requirement));
+        results.push(source_result(budget, source, analyses, requirement)?);
     }
     let mut extra: Vec<f64> = requirement
         .map(|r| r.min_cmrr.iter().map(|m| m.frequency_hz).collect())
@@ -496,18 +501,28 @@ fn source_result(
     source: &Interference,
     analyses: &Analyses,
     requirement: Option<&Requirement>,
-) -> SourceResult {
+) -> Result<SourceResult, VerdictError> {
     let analysis = &analyses.shown;
     let conversion = conversion_totals(analysis);
     let gain = analysis.analysis.differential_gain.norm();
     let cmrr_db = conversion.map(Db::from_conversion);
     let error_rti_v = conversion.map(|e| e * source.amplitude.volts);
-    let error_fs_ppm = requirement
-        .and_then(|r| r.full_scale_volts)
-        .map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
+    let full_scale = requirement.and_then(|r| r.full_scale_volts);
+    let error_fs_ppm =
+        full_scale.map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
     let judgement = judged_on(requirement);
-    let worst = analyses.judged(judgement);
-    let judged = judged_figure(judgement, worst, Some(&source.amplitude));
+    let after_tare = match source.tare {
+        Some(tare) => Some(tared(budget, source, tare, analyses, judgement)?),
+        None => None,
+    };
+    let judged = match &after_tare {
+        Some((_, figure)) => *figure,
+        None => judged_figure(
+            judgement,
+            analyses.judged(judgement),
+            Some(&source.amplitude),
+        ),
+    };
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
         .unwrap_or_default();
@@ -515,19 +530,24 @@ fn source_result(
     let scale = ReadingScale {
         volts_per_code: lsb_volts(budget).map(|lsb| lsb / gain),
         filter_gain,
+        tared: after_tare.is_some(),
         unit: budget.measurand.as_ref().map_or("", |m| m.unit.as_str()),
     };
     let limit = source.max_error.or(requirement.and_then(|r| r.max_error));
     if let Some(limit) = &limit {
+        // The judged error over the amplitude: the conversion, or for a
+        // tared source the residual's equivalent.
+        let judged_conversion = judged.error_rti_v.unwrap_or(0.0) / source.amplitude.volts;
         checks.push(error_check(
             &source.name,
             limit,
             &source.amplitude,
-            worst.1,
+            judged_conversion,
             &scale,
         ));
     }
-    SourceResult {
+    let reading = Reading::of(budget, gain, full_scale);
+    Ok(SourceResult {
         source: source.name.clone(),
         frequency_hz: source.frequency_hz,
         amplitude_v: source.amplitude.volts,
@@ -538,18 +558,156 @@ fn source_result(
         error_rto_v: error_rti_v.map(|e| e * gain),
         error_fs_ppm,
         corner: corner(budget, analysis),
-        error_lsb: lsb_volts(budget).map(|lsb| error_rti_v.map(|e| e * gain / lsb)),
-        error_measurand: budget
-            .measurand
-            .as_ref()
-            .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
+        error_lsb: reading.codes(&error_rti_v),
+        error_measurand: reading.measurand(&error_rti_v),
         contributions: contribution_rows(budget, analysis, Some(&source.amplitude)),
         at_temperature: temperature_result(budget, analyses, Some(&source.amplitude)),
         after_filter,
+        after_tare: after_tare.map(|(t, _)| t),
         judged,
         requirement: outcome(requirement, checks),
-        max_conversion: limit.and_then(|l| scale.allowed_conversion(&l, &source.amplitude)),
+        // A tared source's residual needs each unit solved at two
+        // temperatures; the yield does not count it per trial.
+        max_conversion: match source.tare {
+            Some(_) => None,
+            None => limit.and_then(|l| scale.allowed_conversion(&l, &source.amplitude)),
+        },
+    })
+}
+
+/// How an error referred to the input reads at the end of the chain: in
+/// the converter's codes (through the chain's gain at the source's
+/// frequency), in the measurand's unit, as ppm of full scale.
+struct Reading {
+    volts_per_code: Option<f64>,
+    volts_per_unit: Option<f64>,
+    full_scale_volts: Option<f64>,
+}
+
+impl Reading {
+    fn of(budget: &Budget, gain: f64, full_scale_volts: Option<f64>) -> Reading {
+        Reading {
+            volts_per_code: lsb_volts(budget).map(|lsb| lsb / gain),
+            volts_per_unit: budget.measurand.as_ref().map(|m| m.volts_per_unit),
+            full_scale_volts,
+        }
     }
+
+    fn codes(&self, rti: &Totals<f64>) -> Option<Totals<f64>> {
+        self.volts_per_code.map(|v| rti.map(|e| e / v))
+    }
+
+    fn measurand(&self, rti: &Totals<f64>) -> Option<Totals<f64>> {
+        self.volts_per_unit.map(|v| rti.map(|e| e / v))
+    }
+
+    /// ppm of full scale of a DC (or peak) error.
+    fn of_full_scale(&self, rti: &Totals<f64>) -> Option<Totals<f64>> {
+        self.full_scale_volts.map(|fs| rti.map(|e| e / fs * 1e6))
+    }
+}
+
+/// What a tare at the reference temperature leaves of `source`'s offset,
+/// worst over the temperatures judged (the calibration's own, where only
+/// the common mode's movement converts, and the ends of the range), and
+/// the figure the source is judged on there.
+fn tared(
+    budget: &Budget,
+    source: &Interference,
+    tare: crate::model::Tare,
+    analyses: &Analyses,
+    judgement: Judgement,
+) -> Result<(super::TaredError, JudgedFigure), VerdictError> {
+    let amplitude_v = source.amplitude.volts;
+    let computed;
+    let calibration = match analyses.shown_k {
+        None => &analyses.shown.analysis,
+        Some(_) => {
+            computed = analyse_point_at(budget, source.frequency_hz, 0.0)?;
+            &computed
+        }
+    };
+    let mut uses: Vec<(Option<f64>, &Analysed)> = vec![(analyses.shown_k, &analyses.shown)];
+    uses.extend(analyses.ends.iter().map(|(k, a)| (Some(*k), a)));
+    let mut worst: Option<(Option<f64>, &Analysed, TareResidual, Totals<f64>)> = None;
+    for (kelvin, used) in uses {
+        let residual = tare_residual(
+            budget,
+            calibration,
+            &used.analysis,
+            amplitude_v,
+            tare.varies_by_v,
+        )?;
+        let totals = Totals {
+            worst_case: residual.worst_case(),
+            worst_corner: residual.worst_corner,
+            rss: residual.rss(),
+            nominal: residual.systematic,
+        };
+        if worst
+            .as_ref()
+            .is_none_or(|w| totals.judged(judgement) > w.3.judged(judgement))
+        {
+            worst = Some((kelvin, used, residual, totals));
+        }
+    }
+    let (temperature_k, used, residual, totals) = worst.expect("the shown temperature is judged");
+    let gain = used.analysis.differential_gain.norm();
+    let full_scale = budget.requirement.as_ref().and_then(|r| r.full_scale_volts);
+    let reading = Reading::of(budget, gain, full_scale);
+    let figure = JudgedFigure {
+        on: judgement,
+        temperature_k,
+        cmrr_db: Db::from_conversion(conversion_totals(used).judged(judgement)),
+        error_rti_v: Some(totals.judged(judgement)),
+    };
+    let error = super::TaredError {
+        calibrated_at_k: budget.temperature.map(|t| t.reference_k),
+        varies_by_v: tare.varies_by_v,
+        temperature_k,
+        residual_fs_ppm: reading.of_full_scale(&totals),
+        residual_lsb: reading.codes(&totals),
+        residual_measurand: reading.measurand(&totals),
+        residual_rti_v: totals,
+        corners_solved: residual.corners_solved,
+        contributions: tare_rows(budget, &residual, amplitude_v),
+    };
+    Ok((error, figure))
+}
+
+/// The residual's contributors, largest first, as contribution rows (their
+/// CMRR the residual over the amplitude).
+fn tare_rows(budget: &Budget, residual: &TareResidual, amplitude_v: f64) -> Vec<ContributionRow> {
+    let worst = residual.worst_case();
+    let share = |r: f64| if worst > 0.0 { r / worst } else { 0.0 };
+    let mut rows = Vec::new();
+    if residual.systematic > 0.0 {
+        rows.push(ContributionRow {
+            name: "nominal imbalance".into(),
+            stage: "whole chain".into(),
+            value: "values as given".into(),
+            field: String::new(),
+            kind: ContributionKind::Systematic,
+            cmrr_db: Db::from_conversion(residual.systematic / amplitude_v),
+            error_rti_v: Some(residual.systematic),
+            share: share(residual.systematic),
+        });
+    }
+    for &(id, r) in residual.rows.iter().filter(|row| row.1 > 0.0) {
+        let parameter = budget.parameters.get(id);
+        rows.push(ContributionRow {
+            name: parameter.name.clone(),
+            stage: budget.chain[parameter.stage].label.clone(),
+            value: parameter.describe(),
+            field: parameter.field.clone(),
+            kind: ContributionKind::Random,
+            cmrr_db: Db::from_conversion(r / amplitude_v),
+            error_rti_v: Some(r),
+            share: share(r),
+        });
+    }
+    rows.sort_by(|a, b| ranking_key(b.share).total_cmp(&ranking_key(a.share)));
+    rows
 }
 
 /// The error `source` leaves after the converter's digital filter, from
@@ -570,16 +728,14 @@ fn filtered_error(
     // Validation has checked that a table covers the band.
     let (filter_gain, worst_at_hz) = filter.worst_gain(band_hz[0], band_hz[1]).ok()?;
     let error_rti_v = conversion.map(|e| e * source.amplitude.volts * filter_gain);
+    let reading = Reading::of(budget, gain, None);
     let filtered = FilteredError {
         filter: filter.describe(),
         band_hz,
         worst_at_hz,
         rejection_db: Db::from_conversion(filter_gain),
-        error_lsb: lsb_volts(budget).map(|lsb| error_rti_v.map(|e| e * gain / lsb)),
-        error_measurand: budget
-            .measurand
-            .as_ref()
-            .map(|m| error_rti_v.map(|e| e / m.volts_per_unit)),
+        error_lsb: reading.codes(&error_rti_v),
+        error_measurand: reading.measurand(&error_rti_v),
         error_rti_v,
     };
     Some((filter_gain, filtered))

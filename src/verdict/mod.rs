@@ -309,8 +309,13 @@ pub struct SourceResult {
     /// The error after the converter's digital filter; null without a
     /// filter and for a DC source (the filter's DC gain is 1).
     pub after_filter: Option<FilteredError>,
+    /// What a tare at the reference temperature leaves of this DC source's
+    /// offset; null unless the source is tared. A tared source's limit is
+    /// judged on it.
+    pub after_tare: Option<TaredError>,
     /// The figure the requirement is judged on (the worse of the reference
-    /// temperature and the worse end of the range).
+    /// temperature and the worse end of the range; for a tared source, the
+    /// residual where it is worst).
     pub judged: JudgedFigure,
     /// The requirement's outcome; null when no requirement applies.
     pub requirement: Option<RequirementOutcome>,
@@ -343,6 +348,40 @@ pub struct FilteredError {
     pub error_lsb: Option<Totals<f64>>,
     /// The same in the measurand's unit; null without a measurand.
     pub error_measurand: Option<Totals<f64>>,
+}
+
+/// What a tare (zero calibration) at the reference temperature leaves of a
+/// DC source's offset: its change with the temperature (the parts' TCRs,
+/// the nominal conversion's own drift) and with the common mode moving
+/// from its value at calibration. Volts referred to the input.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TaredError {
+    /// Where the calibration is made, kelvin; null when the budget states
+    /// no temperatures (the calibration and use are then at one
+    /// temperature).
+    pub calibrated_at_k: Option<f64>,
+    /// How far the common mode may move from its value at calibration,
+    /// volts.
+    pub varies_by_v: f64,
+    /// Where the residual is worst, kelvin; null at the calibration's own
+    /// temperature.
+    pub temperature_k: Option<f64>,
+    /// The residual, referred to the input, volts. `worst_corner` is the
+    /// exact residual at the worst corner a directed search found.
+    pub residual_rti_v: Totals<f64>,
+    /// The residual as ppm of the full-scale input, when the requirement
+    /// gives a full scale.
+    pub residual_fs_ppm: Option<Totals<f64>>,
+    /// The residual in codes; null without a converter.
+    pub residual_lsb: Option<Totals<f64>>,
+    /// The residual in the measurand's unit; null without a measurand.
+    pub residual_measurand: Option<Totals<f64>>,
+    /// How many corners the search solved (each at both temperatures).
+    pub corners_solved: u64,
+    /// The contributors to the residual, largest first. Their `cmrr_db` is
+    /// the residual over the source's amplitude, in dB: the CMRR a chain
+    /// would need to leave that error untared.
+    pub contributions: Vec<ContributionRow>,
 }
 
 /// The analysis at the worse end of the operating temperature range, where
@@ -484,7 +523,10 @@ impl Report {
                 frequency_hz: r.frequency_hz,
                 judged: &r.judged,
                 requirement: r.requirement.as_ref(),
-                contributions: judged_rows(&r.judged, &r.contributions, &r.at_temperature),
+                contributions: match &r.after_tare {
+                    Some(tared) => &tared.contributions,
+                    None => judged_rows(&r.judged, &r.contributions, &r.at_temperature),
+                },
             });
         }
         for f in &self.frequencies {

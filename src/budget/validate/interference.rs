@@ -3,11 +3,11 @@
 use super::{Range, Validator};
 use crate::budget::raw::{
     RawInterference, RawJudgement, RawMeasurand, RawProduction, RawRequirement, RawShape, RawSweep,
-    Scalar,
+    RawTare, Scalar,
 };
 use crate::model::{
     Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Production,
-    Requirement, SweepRange,
+    Requirement, SweepRange, Tare,
 };
 use crate::quantity::{format_si, parse_quantity, AmplitudeForm, Dimension, SpreadShape};
 
@@ -113,13 +113,63 @@ impl Validator<'_> {
             .as_ref()
             .and_then(|d| self.frequency_drift(d, path, frequency.value))
             .unwrap_or(0.0);
+        let tare = match &raw.tare {
+            Some(t) => Some(self.tare(t, path, frequency.value, &amplitude)?),
+            None => None,
+        };
         Some(Interference {
             name: raw.name.trim().to_string(),
             amplitude,
             frequency_hz: frequency.value,
             max_error,
             frequency_drift,
+            tare,
         })
+    }
+
+    /// A DC source's tare: how far its common mode may move from its value
+    /// at calibration, in volts or as a fraction of the amplitude;
+    /// refused on an alternating source, whose error no zero calibration
+    /// removes.
+    fn tare(
+        &mut self,
+        raw: &RawTare,
+        path: &str,
+        frequency_hz: f64,
+        amplitude: &Amplitude,
+    ) -> Option<Tare> {
+        let at = format!("{path}.tare");
+        if frequency_hz > 0.0 {
+            self.problem(
+                &at,
+                "a tare removes a constant offset; the error an alternating source leaves changes sign with it and is not removed by a zero calibration",
+                "remove `tare`, or use it on a DC source (`frequency: 0 Hz`)",
+            );
+            return None;
+        }
+        let field = format!("{at}.varies_by");
+        let text = raw.varies_by.0.trim();
+        let relative = text.ends_with('%') || text.ends_with("ppm");
+        let varies_by_v = if relative {
+            let share = self.quantity(
+                &raw.varies_by,
+                &field,
+                Dimension::Fraction,
+                Range::NonNegative,
+                false,
+            )?;
+            share.value * amplitude.volts
+        } else {
+            self.quantity(
+                &raw.varies_by,
+                &field,
+                Dimension::Voltage,
+                Range::NonNegative,
+                false,
+            )?
+            .value
+        };
+        Some(Tare { varies_by_v })
     }
 
     /// A source's frequency drift, a fraction below 50 %; refused on a DC
