@@ -149,3 +149,25 @@ fn issue_12_tare_on_an_alternating_source_is_refused() {
     let error = parse_budget(&text, "t.yaml").unwrap_err().to_string();
     assert!(error.contains("interference[0].tare.varies_by"), "{error}");
 }
+
+/// A source's limit in % of full scale takes the full scale from the
+/// measurand's rating (sensitivity × excitation) when the budget has no
+/// requirement section: 2 mV/V × 5 V = 10 mV.
+#[test]
+fn issue_12_source_limit_of_full_scale_from_the_rating_without_a_requirement() {
+    let budget = parse("name: t\nmeasurand: {unit: kg, bridge: {sensitivity: 2 mV/V, excitation: 5 V, capacity: 100}}\nchain:\n  - difference_amp: {r1: 10k ±0.1 %, r2: 100k ±0.1 %, r3: 10k ±0.1 %, r4: 100k ±0.1 %}\ninterference:\n  - {name: cm, amplitude: excitation/2, frequency: DC, tare: {varies_by: 1 %}, max_error: 0.02 %}\n");
+    assert_eq!(budget.full_scale_volts(), Some(0.01));
+    let report = judge(&budget).unwrap();
+    let check = &report.results[0].requirement.as_ref().unwrap().checks[0];
+    assert!(
+        check.limit.contains("of 10.0 mV full scale"),
+        "{}",
+        check.limit
+    );
+    assert!(report.results[0]
+        .after_tare
+        .as_ref()
+        .unwrap()
+        .residual_fs_ppm
+        .is_some());
+}

@@ -129,11 +129,7 @@ pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineErr
         .filter(|s| s.frequency_hz == 0.0)
         .map(|s| s.amplitude.volts)
         .sum();
-    let full_scale = budget
-        .requirement
-        .as_ref()
-        .and_then(|r| r.full_scale_volts)
-        .unwrap_or(0.0);
+    let full_scale = budget.full_scale_volts().unwrap_or(0.0);
     let mut findings = Vec::new();
     for (stage_index, stage_probes) in at_dc.iter().enumerate() {
         for (probe_index, probe) in stage_probes.iter().enumerate() {

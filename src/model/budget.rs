@@ -120,6 +120,18 @@ pub struct TemperatureRange {
     pub high_k: f64,
 }
 
+impl Budget {
+    /// The full-scale input, volts: the requirement's, else the
+    /// measurand's rating (a bridge's sensitivity × excitation, or volts
+    /// per unit × capacity); `None` when neither gives one.
+    pub fn full_scale_volts(&self) -> Option<f64> {
+        self.requirement
+            .as_ref()
+            .and_then(|r| r.full_scale_volts)
+            .or(self.measurand.as_ref().and_then(|m| m.full_scale_volts))
+    }
+}
+
 impl TemperatureRange {
     /// The excursions from the reference to each end of the range, in K.
     pub fn excursions(&self) -> [f64; 2] {

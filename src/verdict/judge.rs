@@ -507,7 +507,7 @@ fn source_result(
     let gain = analysis.analysis.differential_gain.norm();
     let cmrr_db = conversion.map(Db::from_conversion);
     let error_rti_v = conversion.map(|e| e * source.amplitude.volts);
-    let full_scale = requirement.and_then(|r| r.full_scale_volts);
+    let full_scale = budget.full_scale_volts();
     let error_fs_ppm =
         full_scale.map(|fs| conversion.map(|e| e * source.amplitude.peak_volts() / fs * 1e6));
     let judgement = judged_on(requirement);
@@ -653,7 +653,7 @@ fn tared(
     }
     let (temperature_k, used, residual, totals) = worst.expect("the shown temperature is judged");
     let gain = used.analysis.differential_gain.norm();
-    let full_scale = budget.requirement.as_ref().and_then(|r| r.full_scale_volts);
+    let full_scale = budget.full_scale_volts();
     let reading = Reading::of(budget, gain, full_scale);
     let figure = JudgedFigure {
         on: judgement,

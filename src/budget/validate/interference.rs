@@ -412,7 +412,9 @@ impl Validator<'_> {
         if raw.len() != sources.len() {
             return; // a source already failed validation
         }
-        let full_scale = requirement.and_then(|r| r.full_scale_volts);
+        let full_scale = requirement
+            .and_then(|r| r.full_scale_volts)
+            .or(self.measurand.as_ref().and_then(|m| m.full_scale_volts));
         let default_limit = requirement.and_then(|r| r.max_error);
         if let Some(ErrorLimit::OfFullScale { .. }) = default_limit {
             if full_scale.is_none() {
@@ -428,7 +430,7 @@ impl Validator<'_> {
             };
             match source.max_error.or(default_limit) {
                 Some(ErrorLimit::OfFullScale { .. }) if own && full_scale.is_none() => {
-                    self.problem(&path, "the allowed error is a fraction of full scale, but the requirement gives no full scale", "add `full_scale: …` to the requirement, or give the error in volts");
+                    self.problem(&path, "the allowed error is a fraction of full scale, but neither the requirement nor the measurand gives a full scale", "add `full_scale: …` to the requirement, or a rating to the measurand (`bridge: {…}`, or `capacity` with `volts_per_unit`), or give the error in volts");
                 }
                 Some(ErrorLimit::Volts(limit))
                     if limit.form.is_none() && source.frequency_hz > 0.0 =>

@@ -341,7 +341,10 @@ impl Validator<'_> {
         let chain = self.chain(&raw.chain);
         self.measurand = raw.measurand.as_ref().and_then(|m| self.measurand(m));
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
-        let full_scale = requirement.as_ref().and_then(|r| r.full_scale_volts);
+        let full_scale = requirement
+            .as_ref()
+            .and_then(|r| r.full_scale_volts)
+            .or(self.measurand.as_ref().and_then(|m| m.full_scale_volts));
         let interference: Vec<Interference> = raw
             .interference
             .iter()

@@ -277,7 +277,9 @@ impl Validator<'_> {
                 self.error_limit(
                     e,
                     &format!("{path}.max_error"),
-                    requirement.and_then(|r| r.full_scale_volts),
+                    requirement
+                        .and_then(|r| r.full_scale_volts)
+                        .or(self.measurand.as_ref().and_then(|m| m.full_scale_volts)),
                 )
             })
             .or(requirement.and_then(|r| r.max_error));
