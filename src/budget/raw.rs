@@ -91,6 +91,12 @@ pub struct RawBridgeRating {
     pub sensitivity: Scalar,
     pub excitation: Scalar,
     pub capacity: Scalar,
+    #[serde(default)]
+    pub resistance: Option<Scalar>,
+    #[serde(default)]
+    pub lead_resistance: Option<Scalar>,
+    #[serde(default)]
+    pub sense: Option<String>,
 }
 
 /// The operating temperature range.
@@ -146,6 +152,18 @@ pub struct RawAdc {
     pub input_capacitance: Option<PerLeg>,
     #[serde(default)]
     pub filter: Option<RawFilter>,
+    #[serde(default)]
+    pub reference: Option<RawReference>,
+}
+
+/// Where a converter's reference comes from: `from: excitation` (a
+/// ratiometric reading), optionally through a single pole (`corner`).
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawReference {
+    pub from: String,
+    #[serde(default)]
+    pub corner: Option<Scalar>,
 }
 
 /// A converter's digital filter: exactly one of `sinc` (with
@@ -415,7 +433,10 @@ pub struct RawOpAmp {
 #[serde(deny_unknown_fields)]
 pub struct RawInterference {
     pub name: String,
-    pub amplitude: Scalar,
+    #[serde(default)]
+    pub amplitude: Option<Scalar>,
+    #[serde(default)]
+    pub excitation_ripple: Option<Scalar>,
     pub frequency: Scalar,
     #[serde(default)]
     pub max_error: Option<Scalar>,

@@ -139,6 +139,18 @@ impl PointAnalysis {
     }
 }
 
+/// The chain's differential gain `Add` at `freq_hz` with every value as
+/// given, `delta_t` kelvin from the reference.
+pub fn nominal_differential_gain(
+    budget: &Budget,
+    freq_hz: f64,
+    delta_t: f64,
+) -> Result<C64, EngineError> {
+    let mut values = budget.parameters.values_at(delta_t);
+    settle(budget, &mut values, delta_t)?;
+    Ok(chain_response(&budget.chain, &Point::new(freq_hz, &values))?.dd)
+}
+
 /// Analyse the budget's chain at `freq_hz` at the reference temperature.
 pub fn analyse_point(budget: &Budget, freq_hz: f64) -> Result<PointAnalysis, EngineError> {
     analyse_point_at(budget, freq_hz, 0.0)

@@ -15,8 +15,8 @@ mod tare;
 
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
-    analyse_point, analyse_point_at, ranking_key, resolved, Contribution, PointAnalysis,
-    RESOLUTION_FLOOR,
+    analyse_point, analyse_point_at, nominal_differential_gain, ranking_key, resolved,
+    Contribution, PointAnalysis, RESOLUTION_FLOOR,
 };
 pub use corners::{worst_corner, worst_corners, CornerSearch, EXHAUSTIVE_LIMIT};
 pub use headroom::{check_headroom, HeadroomFinding};

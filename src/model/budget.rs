@@ -33,6 +33,10 @@ pub struct Budget {
     pub temperature: Option<TemperatureRange>,
     /// The measured quantity, when given.
     pub measurand: Option<Measurand>,
+    /// The converter's reference when it is taken from the bridge's
+    /// excitation (a ratiometric reading); `None` for a reference of its
+    /// own.
+    pub ratiometric_reference: Option<RatiometricReference>,
     /// The digital filter after the converter that ends the chain, when
     /// the converter states one: it attenuates what each source leaves in
     /// the reading by its gain at the source's frequency.
@@ -41,6 +45,38 @@ pub struct Budget {
     pub sweep: SweepRange,
     /// How toleranced values spread in production, by default.
     pub production: Production,
+}
+
+/// A converter reference taken from the bridge's excitation: a ripple on the
+/// excitation moves the reference with the signal, and the reading, a
+/// ratio, keeps only what the two paths do not share.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RatiometricReference {
+    /// The reference path's single-pole corner (its filter), Hz; `None`
+    /// when it is taken straight.
+    pub corner_hz: Option<f64>,
+}
+
+impl RatiometricReference {
+    /// The reference path's transfer at `freq_hz`, `1/(1 + j f/fc)`.
+    pub fn transfer(&self, freq_hz: f64) -> num_complex::Complex64 {
+        let one = num_complex::Complex64::new(1.0, 0.0);
+        match self.corner_hz {
+            Some(fc) => one / num_complex::Complex64::new(1.0, freq_hz / fc),
+            None => one,
+        }
+    }
+
+    /// Described for a report.
+    pub fn describe(&self) -> String {
+        match self.corner_hz {
+            Some(fc) => format!(
+                "taken from the excitation through a single pole at {}",
+                format_si(fc, "Hz")
+            ),
+            None => "taken straight from the excitation".to_string(),
+        }
+    }
 }
 
 /// A null trim at DC: in each unit, one resistor is adjusted until the
@@ -103,9 +139,76 @@ pub struct Measurand {
     /// measurand gives it: the requirement's full scale unless it states
     /// its own.
     pub full_scale_volts: Option<f64>,
-    /// A bridge's excitation in volts, when the measurand is a bridge: a
-    /// source may take its common mode from it (`amplitude: excitation/2`).
-    pub excitation_volts: Option<f64>,
+    /// A bridge's excitation, when the measurand is a bridge: a source may
+    /// take its common mode from it (`amplitude: excitation/2`) or ride on
+    /// it (`excitation_ripple`).
+    pub excitation: Option<BridgeExcitation>,
+}
+
+/// Where a bridge's excitation is held at its stated value.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Sense {
+    /// At the instrument (four wires): the excitation leads' resistance
+    /// takes its share, and the bridge sees less.
+    Local,
+    /// At the bridge, through sense leads (six wires): the bridge sees the
+    /// stated excitation, and the return lead's drop lifts its low end.
+    Remote,
+}
+
+/// A bridge excited from the instrument's ground through a pair of leads.
+///
+/// With local sense the source drives `V` into `R_b + 2 R_l`: the bridge
+/// sees `V R_b/(R_b + 2 R_l)` and its low end sits at `V R_l/(R_b + 2 R_l)`.
+/// With remote sense the bridge sees `V` and its low end sits at
+/// `V R_l/R_b`, the bridge current's drop in the return lead. The same
+/// linear map carries a ripple on the excitation.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BridgeExcitation {
+    /// The stated excitation, volts.
+    pub volts: f64,
+    /// The bridge's output at capacity per volt across it, V/V.
+    pub sensitivity: f64,
+    /// Each excitation lead's resistance, Ω (0 when not stated).
+    pub lead_ohms: f64,
+    /// The bridge's input resistance, Ω (needed with lead resistance).
+    pub bridge_ohms: f64,
+    /// Where the excitation is held.
+    pub sense: Sense,
+}
+
+impl BridgeExcitation {
+    /// The voltage across the bridge for `v` volts of excitation.
+    pub fn across_bridge(&self, v: f64) -> f64 {
+        match self.sense {
+            Sense::Remote => v,
+            Sense::Local if self.lead_ohms == 0.0 => v,
+            Sense::Local => v * self.bridge_ohms / (self.bridge_ohms + 2.0 * self.lead_ohms),
+        }
+    }
+
+    /// How far the bridge's low end sits above the instrument's ground for
+    /// `v` volts of excitation.
+    pub fn low_end(&self, v: f64) -> f64 {
+        if self.lead_ohms == 0.0 {
+            return 0.0;
+        }
+        match self.sense {
+            Sense::Remote => v * self.lead_ohms / self.bridge_ohms,
+            Sense::Local => v * self.lead_ohms / (self.bridge_ohms + 2.0 * self.lead_ohms),
+        }
+    }
+
+    /// The voltage `share` of the way up the bridge (1/2: its outputs'
+    /// common mode), above ground, for `v` volts of excitation.
+    pub fn point_up_the_bridge(&self, v: f64, share: f64) -> f64 {
+        self.low_end(v) + share * self.across_bridge(v)
+    }
+
+    /// The bridge's output at capacity, volts.
+    pub fn full_scale_volts(&self) -> f64 {
+        self.sensitivity * self.across_bridge(self.volts)
+    }
 }
 
 /// The operating temperature range and the reference temperature at which
@@ -213,6 +316,23 @@ pub struct Interference {
     /// When the constant offset this (DC) source leaves is removed by a
     /// tare or zero calibration: what remains is judged instead.
     pub tare: Option<Tare>,
+    /// When the source is a ripple on the bridge's excitation: its
+    /// `amplitude` is then the common mode it puts on the bridge's outputs,
+    /// and the bridge also passes it on differentially, in proportion to
+    /// the reading.
+    pub excitation_ripple: Option<ExcitationRipple>,
+}
+
+/// A ripple on a bridge's excitation, at the bridge.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ExcitationRipple {
+    /// The ripple as stated, at the excitation's source.
+    pub stated: Amplitude,
+    /// Its part across the bridge, volts in the stated form.
+    pub across_bridge_v: f64,
+    /// What the bridge passes on differentially at capacity (its
+    /// sensitivity × the ripple across it), volts in the stated form.
+    pub differential_v: f64,
 }
 
 /// A DC source's offset removed by a tare (zero calibration) at the

@@ -6,9 +6,10 @@ mod digital_filter;
 mod params;
 
 pub use budget::{
-    describe_volts, Amplitude, Budget, Edge, ErrorLimit, Interference, Judgement, Measurand,
-    MinimumCmrr, NullTrim, Production, Requirement, Safety, SampleWindow, SweepRange, Switching,
-    Tare, TemperatureRange, Trapezoid,
+    describe_volts, Amplitude, BridgeExcitation, Budget, Edge, ErrorLimit, ExcitationRipple,
+    Interference, Judgement, Measurand, MinimumCmrr, NullTrim, Production, RatiometricReference,
+    Requirement, Safety, SampleWindow, Sense, SweepRange, Switching, Tare, TemperatureRange,
+    Trapezoid,
 };
 pub use digital_filter::{DigitalFilter, FilterError, ResponseTable, SincFilter, SincForm};
 pub use params::{Derivation, ParamId, Parameter, Parameters, Presentation, Variation};

@@ -2,7 +2,7 @@
 //! interference source and every further frequency. Units are in the
 //! headers; an infinite CMRR is written `inf`.
 
-use super::{ContributionRow, Db, FilteredError, Report, TaredError, Totals};
+use super::{BridgeRipple, ContributionRow, Db, FilteredError, Report, TaredError, Totals};
 
 const HEADER: &str = "source,frequency_hz,amplitude_v,amplitude_form,row,contributor,stage,value,kind,cmrr_db,error_rti_v,error_rto_v,share";
 
@@ -27,6 +27,9 @@ pub fn render_csv(report: &Report) -> String {
             Some((&result.error_rti_v, &result.error_rto_v)),
             result.differential_gain,
         );
+        if let Some(ripple) = &result.through_bridge {
+            bridge_rows(&mut out, &lead, ripple, result.differential_gain);
+        }
         if let Some(filtered) = &result.after_filter {
             filter_rows(
                 &mut out,
@@ -144,6 +147,40 @@ fn filter_rows(
             filtered.filter.clone(),
             "digital filter".to_string(),
             db(Db(cmrr.judged(judgement).0 + filtered.rejection_db.0)),
+            number(rti),
+            number(rti * gain),
+            String::new(),
+        ];
+        push_line(out, lead, &fields);
+    }
+}
+
+/// A ripple through the bridge: `row` is `through bridge`; one line for
+/// the differential part the reading keeps (`contributor` `bridge`, `value`
+/// the reference, `cmrr_db` the ratiometric cancellation where there is
+/// one), then the error in the reading per total.
+fn bridge_rows(out: &mut String, lead: &[String; 4], ripple: &BridgeRipple, gain: f64) {
+    let kept = [
+        "through bridge".to_string(),
+        "bridge".to_string(),
+        String::new(),
+        ripple.reference.clone(),
+        "systematic".to_string(),
+        ripple.cancellation_db.map(db).unwrap_or_default(),
+        number(ripple.left_rti_v),
+        number(ripple.left_rti_v * gain),
+        String::new(),
+    ];
+    push_line(out, lead, &kept);
+    for judgement in crate::verdict::TOTALS {
+        let rti = ripple.error_rti_v.judged(judgement);
+        let fields = [
+            "through bridge".to_string(),
+            judgement.label().to_lowercase(),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
             number(rti),
             number(rti * gain),
             String::new(),

@@ -16,9 +16,9 @@ pub mod table;
 pub mod yield_report;
 
 pub use crate::verdict::{
-    cautions as cautions_for, Check, ContributionKind, ContributionRow, Corner, CornerValue, Db,
-    FilteredError, FrequencyResult, JudgedFigure, Report, RequirementOutcome, SourceResult, Status,
-    TaredError, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
+    cautions as cautions_for, BridgeRipple, Check, ContributionKind, ContributionRow, Corner,
+    CornerValue, Db, FilteredError, FrequencyResult, JudgedFigure, Report, RequirementOutcome,
+    SourceResult, Status, TaredError, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 
 use serde::Serialize;

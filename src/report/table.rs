@@ -3,7 +3,7 @@
 
 use super::layout::styled;
 use super::{
-    ContributionRow, Corner, FilteredError, FrequencyResult, JudgedFigure, Report,
+    BridgeRipple, ContributionRow, Corner, FilteredError, FrequencyResult, JudgedFigure, Report,
     RequirementOutcome, SourceResult, Status, TaredError, TemperatureResult, Totals,
 };
 use crate::model::{describe_volts, Judgement};
@@ -87,11 +87,14 @@ fn source_section(result: &SourceResult, measurand_unit: Option<&str>) -> String
         ));
         totals.push_record(row);
     }
-    let filtered = result
-        .after_filter
+    let mut filtered = result
+        .through_bridge
         .as_ref()
-        .map(|f| filter_block(f, form, measurand_unit))
+        .map(|r| bridge_block(r, form, measurand_unit))
         .unwrap_or_default();
+    if let Some(f) = &result.after_filter {
+        filtered.push_str(&filter_block(f, form, measurand_unit));
+    }
     let tared = result
         .after_tare
         .as_ref()
@@ -163,6 +166,62 @@ fn filter_block(
                 filtered.error_lsb.as_ref(),
                 filtered.error_measurand.as_ref(),
             ),
+            judgement,
+            &suffix,
+            measurand_unit,
+        ));
+        table.push_record(row);
+    }
+    out.push_str(&styled(table, 1..usize::MAX));
+    out.push('\n');
+    out
+}
+
+/// A ripple on the excitation through the bridge: the differential part,
+/// what the reference leaves of it, and the error in the reading.
+fn bridge_block(
+    ripple: &BridgeRipple,
+    form: Option<AmplitudeForm>,
+    measurand_unit: Option<&str>,
+) -> String {
+    let volts = |v: f64| describe_volts(v, form);
+    let mut out = format!(
+        "through the bridge: {} of ripple on the excitation ({} across the bridge) passes on {} differentially at capacity\n",
+        volts(ripple.ripple_v),
+        volts(ripple.across_bridge_v),
+        volts(ripple.differential_v),
+    );
+    out.push_str(&match ripple.cancellation_db {
+        Some(db) => format!(
+            "  reference {}: the reading keeps {} RTI of it (cancelled by {})\n",
+            ripple.reference,
+            volts(ripple.left_rti_v),
+            format_db(db.0)
+        ),
+        None => format!(
+            "  reference {}: the reading keeps all of it, {} RTI\n",
+            ripple.reference,
+            volts(ripple.left_rti_v)
+        ),
+    });
+    out.push_str("error in the reading (the common mode's and the bridge's, magnitudes added):\n");
+    let mut table = Builder::default();
+    let mut header = vec!["total", "error RTI"];
+    if ripple.error_lsb.is_some() {
+        header.push("error (codes)");
+    }
+    if ripple.error_measurand.is_some() {
+        header.push("error (measurand)");
+    }
+    table.push_record(header);
+    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
+    for judgement in TOTALS {
+        let mut row = vec![
+            judgement.label().to_string(),
+            volts(ripple.error_rti_v.judged(judgement)),
+        ];
+        row.extend(reading_cells(
+            (ripple.error_lsb.as_ref(), ripple.error_measurand.as_ref()),
             judgement,
             &suffix,
             measurand_unit,

@@ -10,8 +10,8 @@ use super::{
     JudgedFigure, Report, SourceResult, Status, TemperatureResult, Totals, Verdict, SCHEMA_VERSION,
 };
 use crate::engine::{
-    analyse_point_at, check_headroom, ranking_key, tare_residual, worst_corners, CornerSearch,
-    EngineError, PointAnalysis, TareResidual,
+    analyse_point_at, check_headroom, nominal_differential_gain, ranking_key, tare_residual,
+    worst_corners, CornerSearch, EngineError, PointAnalysis, TareResidual,
 };
 use crate::model::{Amplitude, Budget, Interference, Judgement, Presentation, Requirement};
 use crate::quantity::{format_db, format_quantity, Dimension};
@@ -526,7 +526,25 @@ fn source_result(
     let mut checks = requirement
         .map(|r| cmrr_checks(r, source.frequency_hz, judged.cmrr_db))
         .unwrap_or_default();
-    let (filter_gain, after_filter) = filtered_error(budget, source, conversion, gain).unzip();
+    let through_bridge = match &source.excitation_ripple {
+        Some(ripple) => Some(bridge_ripple(
+            budget,
+            ripple,
+            &analysis.analysis,
+            &error_rti_v,
+        )?),
+        None => None,
+    };
+    // What the reading keeps beside the common mode's error.
+    let beside = through_bridge.as_ref().map_or(0.0, |r| r.left_rti_v);
+    let judged = JudgedFigure {
+        error_rti_v: judged.error_rti_v.map(|e| e + beside),
+        ..judged
+    };
+    let reading_error = through_bridge
+        .as_ref()
+        .map_or(error_rti_v, |r| r.error_rti_v);
+    let (filter_gain, after_filter) = filtered_error(budget, source, reading_error, gain).unzip();
     let scale = ReadingScale {
         volts_per_code: lsb_volts(budget).map(|lsb| lsb / gain),
         filter_gain,
@@ -535,8 +553,9 @@ fn source_result(
     };
     let limit = source.max_error.or(requirement.and_then(|r| r.max_error));
     if let Some(limit) = &limit {
-        // The judged error over the amplitude: the conversion, or for a
-        // tared source the residual's equivalent.
+        // The judged error over the amplitude: the conversion; for a
+        // tared source the residual's equivalent; for a ripple on the
+        // excitation, with what the bridge passes on.
         let judged_conversion = judged.error_rti_v.unwrap_or(0.0) / source.amplitude.volts;
         checks.push(error_check(
             &source.name,
@@ -570,8 +589,52 @@ fn source_result(
         // temperatures; the yield does not count it per trial.
         max_conversion: match source.tare {
             Some(_) => None,
-            None => limit.and_then(|l| scale.allowed_conversion(&l, &source.amplitude)),
+            None => limit
+                .and_then(|l| scale.allowed_conversion(&l, &source.amplitude))
+                .map(|allowed| (allowed - beside / source.amplitude.volts).max(0.0)),
         },
+        through_bridge,
+    })
+}
+
+/// A ripple on the excitation through the bridge: the differential part it
+/// passes on at capacity, what the reading keeps of it (all of it with a
+/// reference of the converter's own; with a ratiometric reference, what
+/// the signal and reference paths do not share), and the error in the
+/// reading with the common mode's `common_mode_error` added.
+fn bridge_ripple(
+    budget: &Budget,
+    ripple: &crate::model::ExcitationRipple,
+    analysis: &PointAnalysis,
+    common_mode_error: &Totals<f64>,
+) -> Result<super::BridgeRipple, VerdictError> {
+    let (reference, left_rti_v) = match &budget.ratiometric_reference {
+        Some(reference) => {
+            let at_dc = nominal_differential_gain(budget, 0.0, analysis.delta_t)?;
+            let kept =
+                1.0 - reference.transfer(analysis.freq_hz) * at_dc / analysis.differential_gain;
+            (reference.describe(), ripple.differential_v * kept.norm())
+        }
+        None => (
+            "the converter's own, independent of the excitation".to_string(),
+            ripple.differential_v,
+        ),
+    };
+    let cancellation_db = budget
+        .ratiometric_reference
+        .map(|_| Db::from_conversion(left_rti_v / ripple.differential_v));
+    let error_rti_v = common_mode_error.map(|e| e + left_rti_v);
+    let reading = Reading::of(budget, analysis.differential_gain.norm(), None);
+    Ok(super::BridgeRipple {
+        ripple_v: ripple.stated.volts,
+        across_bridge_v: ripple.across_bridge_v,
+        differential_v: ripple.differential_v,
+        reference,
+        left_rti_v,
+        cancellation_db,
+        error_lsb: reading.codes(&error_rti_v),
+        error_measurand: reading.measurand(&error_rti_v),
+        error_rti_v,
     })
 }
 
@@ -711,13 +774,13 @@ fn tare_rows(budget: &Budget, residual: &TareResidual, amplitude_v: f64) -> Vec<
 }
 
 /// The error `source` leaves after the converter's digital filter, from
-/// the analog conversion totals and the chain's differential gain `gain`
-/// at the source's frequency, beside the filter's worst gain `|H|`; `None`
+/// the error at the converter's input (referred to the input, each total)
+/// and the chain's differential gain `gain` at the source's frequency, beside the filter's worst gain `|H|`; `None`
 /// without a filter or for a DC source.
 fn filtered_error(
     budget: &Budget,
     source: &Interference,
-    conversion: Totals<f64>,
+    error_rti_v: Totals<f64>,
     gain: f64,
 ) -> Option<(f64, FilteredError)> {
     let filter = budget.digital_filter.as_ref()?;
@@ -727,7 +790,7 @@ fn filtered_error(
     let band_hz = source.frequency_band();
     // Validation has checked that a table covers the band.
     let (filter_gain, worst_at_hz) = filter.worst_gain(band_hz[0], band_hz[1]).ok()?;
-    let error_rti_v = conversion.map(|e| e * source.amplitude.volts * filter_gain);
+    let error_rti_v = error_rti_v.map(|e| e * filter_gain);
     let reading = Reading::of(budget, gain, None);
     let filtered = FilteredError {
         filter: filter.describe(),

@@ -313,6 +313,11 @@ pub struct SourceResult {
     /// offset; null unless the source is tared. A tared source's limit is
     /// judged on it.
     pub after_tare: Option<TaredError>,
+    /// For a ripple on the bridge's excitation: what the bridge passes on
+    /// differentially, what a ratiometric reference leaves of it, and the
+    /// error in the reading with the common mode's; null for any other
+    /// source. Its limit is judged on that error.
+    pub through_bridge: Option<BridgeRipple>,
     /// The figure the requirement is judged on (the worse of the reference
     /// temperature and the worse end of the range; for a tared source, the
     /// residual where it is worst).
@@ -343,6 +348,43 @@ pub struct FilteredError {
     pub rejection_db: Db,
     /// The error in the reading, referred to the input, volts in the
     /// source's form.
+    pub error_rti_v: Totals<f64>,
+    /// The same in codes; null without a converter.
+    pub error_lsb: Option<Totals<f64>>,
+    /// The same in the measurand's unit; null without a measurand.
+    pub error_measurand: Option<Totals<f64>>,
+}
+
+/// A ripple on the bridge's excitation, through the bridge itself.
+///
+/// The bridge passes the ripple across it on as a differential signal in
+/// proportion to the reading, `S·δ_b` at capacity. With a reference of the
+/// converter's own the reading keeps all of it; with the reference taken
+/// from the excitation the reading, a ratio, moves by
+/// `(δ/V)·(A_d(f)/A_d(0) − H_ref(f))`, so, referred to the input through
+/// `A_d(f)`, `S·δ_b·|1 − H_ref(f)·A_d(0)/A_d(f)|` is left: what the
+/// signal path (the source filter, the amplifiers' bandwidth) and the
+/// reference path do not share. Voltages in the source's form, referred to
+/// the input.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct BridgeRipple {
+    /// The ripple as stated, at the excitation's source.
+    pub ripple_v: f64,
+    /// Its part across the bridge (less the leads' share with local
+    /// sense).
+    pub across_bridge_v: f64,
+    /// What the bridge passes on differentially at capacity.
+    pub differential_v: f64,
+    /// Where the converter's reference comes from, described.
+    pub reference: String,
+    /// What the reading keeps of the differential part.
+    pub left_rti_v: f64,
+    /// How much a ratiometric reference cancels, dB (the differential part
+    /// over what is left); null with a reference of the converter's own.
+    pub cancellation_db: Option<Db>,
+    /// The error in the reading: the common mode's error (each total) plus
+    /// what is left of the differential part, their magnitudes added (the
+    /// common mode's conversion has an unknown sign).
     pub error_rti_v: Totals<f64>,
     /// The same in codes; null without a converter.
     pub error_lsb: Option<Totals<f64>>,

@@ -215,6 +215,9 @@ impl Validator<'_> {
         if let Some(filter) = &raw.filter {
             self.converter_filter = self.digital_filter(filter, &format!("{path}.filter"));
         }
+        if let Some(reference) = &raw.reference {
+            self.converter_reference = self.converter_reference(reference, path);
+        }
         let cmrr_reciprocal = raw.cmrr.as_ref().and_then(|c| {
             let db = self.cmrr_db(c, &format!("{path}.cmrr"))?;
             Some(self.cmrr_bound(db, path, stage, "converter CMRR"))

@@ -1,8 +1,9 @@
-//! Validation of a converter's digital filter.
+//! Validation of a converter's digital filter and of where its reference
+//! comes from.
 
 use super::{Range, Validator};
-use crate::budget::raw::{RawFilter, Scalar};
-use crate::model::{DigitalFilter, ResponseTable, SincFilter, SincForm};
+use crate::budget::raw::{RawFilter, RawReference, Scalar};
+use crate::model::{DigitalFilter, RatiometricReference, ResponseTable, SincFilter, SincForm};
 use crate::quantity::Dimension;
 
 /// The highest sinc order accepted (delta-sigma decimation filters are of
@@ -219,5 +220,60 @@ impl Validator<'_> {
                 None
             }
         }
+    }
+}
+
+impl Validator<'_> {
+    /// A converter's reference taken from the bridge's excitation
+    /// (`from: excitation`), optionally through a single pole.
+    pub(super) fn converter_reference(
+        &mut self,
+        raw: &RawReference,
+        path: &str,
+    ) -> Option<(RatiometricReference, String)> {
+        let at = format!("{path}.reference.from");
+        if raw.from.trim() != "excitation" {
+            self.problem(
+                &at,
+                format!("`{}` is not a reference this tool models", raw.from.trim()),
+                "write `from: excitation` for a reference taken from the bridge's excitation (a ratiometric reading), or leave `reference` out for a reference of the converter's own",
+            );
+            return None;
+        }
+        let corner_hz = match &raw.corner {
+            Some(c) => Some(
+                self.quantity(
+                    c,
+                    &format!("{path}.reference.corner"),
+                    Dimension::Frequency,
+                    Range::Positive,
+                    false,
+                )?
+                .value,
+            ),
+            None => None,
+        };
+        Some((RatiometricReference { corner_hz }, at))
+    }
+
+    /// A reference taken from the excitation needs a bridge that has one.
+    pub(super) fn check_reference_source(&mut self) {
+        let Some((_, at)) = &self.converter_reference else {
+            return;
+        };
+        if self
+            .measurand
+            .as_ref()
+            .is_some_and(|m| m.excitation.is_some())
+        {
+            return;
+        }
+        let at = at.clone();
+        self.problem(
+            &at,
+            "the reference is taken from the bridge's excitation, and the measurand names no bridge",
+            "add `measurand: {unit: …, bridge: {sensitivity: …, excitation: 5 V, capacity: …}}`, or leave `reference` out",
+        );
+        self.converter_reference = None;
     }
 }

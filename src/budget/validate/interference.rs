@@ -2,12 +2,12 @@
 
 use super::{Range, Validator};
 use crate::budget::raw::{
-    RawInterference, RawJudgement, RawMeasurand, RawProduction, RawRequirement, RawShape, RawSweep,
-    RawTare, Scalar,
+    RawBridgeRating, RawInterference, RawJudgement, RawMeasurand, RawProduction, RawRequirement,
+    RawShape, RawSweep, RawTare, Scalar,
 };
 use crate::model::{
-    Amplitude, ErrorLimit, Interference, Judgement, Measurand, MinimumCmrr, Production,
-    Requirement, SweepRange, Tare,
+    Amplitude, BridgeExcitation, ErrorLimit, ExcitationRipple, Interference, Judgement, Measurand,
+    MinimumCmrr, Production, Requirement, Sense, SweepRange, Tare,
 };
 use crate::quantity::{format_si, parse_quantity, AmplitudeForm, Dimension, SpreadShape};
 
@@ -78,13 +78,33 @@ impl Validator<'_> {
             Range::NonNegative,
             false,
         );
-        let amplitude_path = format!("{path}.amplitude");
-        let amplitude = match excitation_share(&raw.amplitude.0) {
-            Some(share) => self.excitation_amplitude(share, &raw.amplitude, &amplitude_path),
-            None => self.amplitude(&raw.amplitude, &amplitude_path),
+        let (raw_amplitude, amplitude_path) = match (&raw.amplitude, &raw.excitation_ripple) {
+            (Some(a), None) => (a, format!("{path}.amplitude")),
+            (None, Some(r)) => (r, format!("{path}.excitation_ripple")),
+            (Some(_), Some(_)) => {
+                self.problem(
+                    &format!("{path}.excitation_ripple"),
+                    "a source is either a common mode (`amplitude`) or a ripple on the bridge's excitation (`excitation_ripple`), not both",
+                    "keep one: the common mode a ripple puts on the bridge follows from the excitation's wiring",
+                );
+                return None;
+            }
+            (None, None) => {
+                self.problem(
+                    path,
+                    "the interference source has no amplitude",
+                    "give `amplitude: 1 V rms` (a common mode), or `excitation_ripple: 5 mV rms` (a ripple on the bridge's excitation)",
+                );
+                return None;
+            }
+        };
+        let amplitude = match (&raw.excitation_ripple, excitation_share(&raw_amplitude.0)) {
+            (Some(_), _) => self.amplitude(raw_amplitude, &amplitude_path),
+            (None, Some(share)) => self.excitation_amplitude(share, raw_amplitude, &amplitude_path),
+            (None, None) => self.amplitude(raw_amplitude, &amplitude_path),
         };
         let (frequency, amplitude) = (frequency?, amplitude?);
-        let text = raw.amplitude.0.trim();
+        let text = raw_amplitude.0.trim();
         if frequency.value == 0.0 && amplitude.form.is_some() {
             self.problem(
                 &amplitude_path,
@@ -117,14 +137,53 @@ impl Validator<'_> {
             Some(t) => Some(self.tare(t, path, frequency.value, &amplitude)?),
             None => None,
         };
+        let (amplitude, excitation_ripple) = match raw.excitation_ripple {
+            Some(_) => {
+                let ripple = self.excitation_ripple(amplitude, &amplitude_path)?;
+                let common_mode = Amplitude {
+                    volts: ripple.1,
+                    form: amplitude.form,
+                };
+                (common_mode, Some(ripple.0))
+            }
+            None => (amplitude, None),
+        };
         Some(Interference {
             name: raw.name.trim().to_string(),
+            excitation_ripple,
             amplitude,
             frequency_hz: frequency.value,
             max_error,
             frequency_drift,
             tare,
         })
+    }
+
+    /// A ripple on the bridge's excitation, and the common mode it puts on
+    /// the bridge's outputs (halfway up the bridge); needs a bridge
+    /// measurand.
+    fn excitation_ripple(
+        &mut self,
+        stated: Amplitude,
+        path: &str,
+    ) -> Option<(ExcitationRipple, f64)> {
+        let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation) else {
+            self.problem(
+                path,
+                "a ripple on the excitation needs the bridge it excites, and the measurand names none",
+                "add `measurand: {unit: …, bridge: {sensitivity: …, excitation: 5 V, capacity: …}}`, or give the ripple's common mode as `amplitude`",
+            );
+            return None;
+        };
+        let across_bridge_v = excitation.across_bridge(stated.volts);
+        Some((
+            ExcitationRipple {
+                stated,
+                across_bridge_v,
+                differential_v: excitation.sensitivity * across_bridge_v,
+            },
+            excitation.point_up_the_bridge(stated.volts, 0.5),
+        ))
     }
 
     /// A DC source's tare: how far its common mode may move from its value
@@ -213,7 +272,7 @@ impl Validator<'_> {
             );
             return None;
         };
-        let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation_volts) else {
+        let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation) else {
             self.problem(
                 path,
                 format!("`{text}` needs a bridge excitation, and the measurand names none"),
@@ -222,7 +281,7 @@ impl Validator<'_> {
             return None;
         };
         Some(Amplitude {
-            volts: excitation * share,
+            volts: excitation.point_up_the_bridge(excitation.volts, share),
             form: None,
         })
     }
@@ -539,13 +598,23 @@ impl Validator<'_> {
                     Range::Positive,
                     false,
                 );
+                let leads = self.bridge_leads(bridge);
                 let (sensitivity, excitation, capacity) =
                     (sensitivity?.value, excitation?.value, capacity?.value);
+                let (lead_ohms, bridge_ohms, sense) = leads?;
+                let excitation = BridgeExcitation {
+                    volts: excitation,
+                    sensitivity,
+                    lead_ohms,
+                    bridge_ohms,
+                    sense,
+                };
+                let full_scale = excitation.full_scale_volts();
                 return Some(Measurand {
                     unit,
-                    volts_per_unit: sensitivity * excitation / capacity,
-                    full_scale_volts: Some(sensitivity * excitation),
-                    excitation_volts: Some(excitation),
+                    volts_per_unit: full_scale / capacity,
+                    full_scale_volts: Some(full_scale),
+                    excitation: Some(excitation),
                 });
             }
             _ => {
@@ -575,8 +644,73 @@ impl Validator<'_> {
             unit,
             volts_per_unit,
             full_scale_volts,
-            excitation_volts: None,
+            excitation: None,
         })
+    }
+
+    /// A bridge's excitation leads: each lead's resistance with the
+    /// bridge's own (both or neither), and where the excitation is sensed
+    /// (`local`, the default, or `remote`).
+    fn bridge_leads(&mut self, bridge: &RawBridgeRating) -> Option<(f64, f64, Sense)> {
+        let sense = match bridge.sense.as_deref().map(str::trim) {
+            None | Some("local") => Sense::Local,
+            Some("remote") => Sense::Remote,
+            Some(other) => {
+                self.problem(
+                    "measurand.bridge.sense",
+                    format!("`{other}` is not where an excitation is sensed"),
+                    "write `sense: local` (held at the instrument, four wires) or `sense: remote` (held at the bridge through sense leads, six wires)",
+                );
+                return None;
+            }
+        };
+        let ohms = |v: &mut Self, raw: &Option<Scalar>, field: &str, range: Range| {
+            raw.as_ref().map(|r| {
+                v.quantity(
+                    r,
+                    &format!("measurand.bridge.{field}"),
+                    Dimension::Resistance,
+                    range,
+                    false,
+                )
+                .map(|q| q.value)
+            })
+        };
+        let lead = ohms(
+            self,
+            &bridge.lead_resistance,
+            "lead_resistance",
+            Range::NonNegative,
+        );
+        let own = ohms(self, &bridge.resistance, "resistance", Range::Positive);
+        match (lead, own) {
+            (None, None) if bridge.sense.is_some() => {
+                self.problem(
+                    "measurand.bridge.sense",
+                    "where the excitation is sensed matters only through the leads' resistance, and none is given",
+                    "add `lead_resistance: 1.5 Ω` (each excitation lead) and `resistance: 350 Ω` (the bridge's input), or remove `sense`",
+                );
+                None
+            }
+            (None, None) => Some((0.0, 0.0, sense)),
+            (Some(lead), Some(own)) => Some((lead?, own?, sense)),
+            (Some(_), None) => {
+                self.problem(
+                    "measurand.bridge.lead_resistance",
+                    "the leads' share of the excitation needs the bridge's own resistance",
+                    "add `resistance: 350 Ω` (the bridge's input resistance) beside `lead_resistance`",
+                );
+                None
+            }
+            (None, Some(_)) => {
+                self.problem(
+                    "measurand.bridge.resistance",
+                    "the bridge's resistance is used only with the leads' resistance, and none is given",
+                    "add `lead_resistance: 1.5 Ω` (each excitation lead), or remove `resistance`",
+                );
+                None
+            }
+        }
     }
 
     pub(super) fn sweep_range(&mut self, raw: &RawSweep) -> SweepRange {

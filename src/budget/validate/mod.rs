@@ -39,6 +39,7 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
         temperature: None,
         measurand: None,
         converter_filter: None,
+        converter_reference: None,
         ends_in_converter: false,
     };
     if !v.bounded(&raw) {
@@ -82,6 +83,9 @@ struct Validator<'a> {
     /// The digital filter of the converter ending the chain, when it
     /// states one.
     converter_filter: Option<DigitalFilter>,
+    /// The converter's reference when taken from the excitation, with the
+    /// field that asked for it (checked against the measurand later).
+    converter_reference: Option<(crate::model::RatiometricReference, String)>,
     /// Whether the chain ends in a converter (a limit may then be stated
     /// in its codes).
     ends_in_converter: bool,
@@ -340,6 +344,7 @@ impl Validator<'_> {
             .and_then(|t| self.temperature_range(t));
         let chain = self.chain(&raw.chain);
         self.measurand = raw.measurand.as_ref().and_then(|m| self.measurand(m));
+        self.check_reference_source();
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
         let full_scale = requirement
             .as_ref()
@@ -405,6 +410,7 @@ impl Validator<'_> {
             temperature: self.temperature,
             measurand: self.measurand.take(),
             digital_filter: self.converter_filter.take(),
+            ratiometric_reference: self.converter_reference.take().map(|r| r.0),
             sweep: raw
                 .sweep
                 .as_ref()
