@@ -146,33 +146,17 @@ fn filter_block(
         format_db(filtered.rejection_db.0),
         band_text(filtered),
     );
-    let mut table = Builder::default();
-    let mut header = vec!["total", "error RTI as read"];
-    if filtered.error_lsb.is_some() {
-        header.push("error (codes)");
-    }
-    if filtered.error_measurand.is_some() {
-        header.push("error (measurand)");
-    }
-    table.push_record(header);
-    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
-    for judgement in TOTALS {
-        let mut row = vec![
-            judgement.label().to_string(),
-            describe_volts(filtered.error_rti_v.judged(judgement), form),
-        ];
-        row.extend(reading_cells(
-            (
-                filtered.error_lsb.as_ref(),
-                filtered.error_measurand.as_ref(),
-            ),
-            judgement,
-            &suffix,
-            measurand_unit,
-        ));
-        table.push_record(row);
-    }
-    out.push_str(&styled(table, 1..usize::MAX));
+    out.push_str(&reading_table(
+        ("error", "error RTI as read"),
+        &ReadingFigures {
+            rti: &filtered.error_rti_v,
+            fs_ppm: None,
+            lsb: filtered.error_lsb.as_ref(),
+            measurand: filtered.error_measurand.as_ref(),
+        },
+        form,
+        measurand_unit,
+    ));
     out.push('\n');
     out
 }
@@ -205,30 +189,17 @@ fn bridge_block(
         ),
     });
     out.push_str("error in the reading (the common mode's and the bridge's, magnitudes added):\n");
-    let mut table = Builder::default();
-    let mut header = vec!["total", "error RTI"];
-    if ripple.error_lsb.is_some() {
-        header.push("error (codes)");
-    }
-    if ripple.error_measurand.is_some() {
-        header.push("error (measurand)");
-    }
-    table.push_record(header);
-    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
-    for judgement in TOTALS {
-        let mut row = vec![
-            judgement.label().to_string(),
-            volts(ripple.error_rti_v.judged(judgement)),
-        ];
-        row.extend(reading_cells(
-            (ripple.error_lsb.as_ref(), ripple.error_measurand.as_ref()),
-            judgement,
-            &suffix,
-            measurand_unit,
-        ));
-        table.push_record(row);
-    }
-    out.push_str(&styled(table, 1..usize::MAX));
+    out.push_str(&reading_table(
+        ("error", "error RTI"),
+        &ReadingFigures {
+            rti: &ripple.error_rti_v,
+            fs_ppm: None,
+            lsb: ripple.error_lsb.as_ref(),
+            measurand: ripple.error_measurand.as_ref(),
+        },
+        form,
+        measurand_unit,
+    ));
     out.push('\n');
     out
 }
@@ -254,43 +225,72 @@ fn tare_block(tared: &TaredError, measurand_unit: Option<&str>) -> String {
         out.push_str(&contribution_table(&tared.contributions, None));
         out.push('\n');
     }
-    let mut table = Builder::default();
-    let mut header = vec!["total", "residual RTI"];
-    if tared.residual_fs_ppm.is_some() {
-        header.push("residual of full scale");
-    }
-    if tared.residual_lsb.is_some() {
-        header.push("residual (codes)");
-    }
-    if tared.residual_measurand.is_some() {
-        header.push("residual (measurand)");
-    }
-    table.push_record(header);
-    for judgement in TOTALS {
-        let mut row = vec![
-            judgement.label().to_string(),
-            format_si(tared.residual_rti_v.judged(judgement), "V"),
-        ];
-        if let Some(ppm) = &tared.residual_fs_ppm {
-            row.push(format_fraction(ppm.judged(judgement) * 1e-6));
-        }
-        row.extend(reading_cells(
-            (
-                tared.residual_lsb.as_ref(),
-                tared.residual_measurand.as_ref(),
-            ),
-            judgement,
-            "",
-            measurand_unit,
-        ));
-        table.push_record(row);
-    }
-    out.push_str(&styled(table, 1..usize::MAX));
+    out.push_str(&reading_table(
+        ("residual", "residual RTI"),
+        &ReadingFigures {
+            rti: &tared.residual_rti_v,
+            fs_ppm: tared.residual_fs_ppm.as_ref(),
+            lsb: tared.residual_lsb.as_ref(),
+            measurand: tared.residual_measurand.as_ref(),
+        },
+        None,
+        measurand_unit,
+    ));
     out.push_str(&format!(
         "\n  (worst corner: a directed search, {} corners solved at both temperatures)\n",
         tared.corners_solved
     ));
     out
+}
+
+/// The figures of one reading table: the error referred to the input and,
+/// where given, its share of full scale, codes and measurand units (each
+/// the four totals).
+struct ReadingFigures<'a> {
+    rti: &'a Totals<f64>,
+    fs_ppm: Option<&'a Totals<f64>>,
+    lsb: Option<&'a Totals<f64>>,
+    measurand: Option<&'a Totals<f64>>,
+}
+
+/// A totals table of an error as read: `word` names it (`error`,
+/// `residual`), `rti_heading` its first column's heading.
+fn reading_table(
+    (word, rti_heading): (&str, &str),
+    figures: &ReadingFigures,
+    form: Option<AmplitudeForm>,
+    measurand_unit: Option<&str>,
+) -> String {
+    let mut table = Builder::default();
+    let mut header = vec!["total".to_string(), rti_heading.to_string()];
+    if figures.fs_ppm.is_some() {
+        header.push(format!("{word} of full scale"));
+    }
+    if figures.lsb.is_some() {
+        header.push(format!("{word} (codes)"));
+    }
+    if figures.measurand.is_some() {
+        header.push(format!("{word} (measurand)"));
+    }
+    table.push_record(header);
+    let suffix = form.map_or(String::new(), |f| format!(" {}", f.suffix()));
+    for judgement in TOTALS {
+        let mut row = vec![
+            judgement.label().to_string(),
+            describe_volts(figures.rti.judged(judgement), form),
+        ];
+        if let Some(ppm) = figures.fs_ppm {
+            row.push(format_fraction(ppm.judged(judgement) * 1e-6));
+        }
+        row.extend(reading_cells(
+            (figures.lsb, figures.measurand),
+            judgement,
+            &suffix,
+            measurand_unit,
+        ));
+        table.push_record(row);
+    }
+    styled(table, 1..usize::MAX)
 }
 
 /// The error in codes and in the measurand's unit, each where given, for

@@ -343,16 +343,11 @@ fn contribution_rows(
     let mut rows = Vec::new();
     let nominal = analysis.nominal_magnitude();
     if nominal > 0.0 {
-        rows.push(ContributionRow {
-            name: "nominal imbalance".into(),
-            stage: "whole chain".into(),
-            value: "values as given".into(),
-            field: String::new(),
-            kind: ContributionKind::Systematic,
-            cmrr_db: Db::from_conversion(nominal),
-            error_rti_v: amplitude.map(|a| nominal * a.volts),
-            share: share(nominal),
-        });
+        rows.push(systematic_row(
+            nominal,
+            amplitude.map(|a| nominal * a.volts),
+            share(nominal),
+        ));
     }
     for contribution in &analysis.contributions {
         let parameter = budget.parameters.get(contribution.param);
@@ -362,19 +357,51 @@ fn contribution_rows(
         if is_drift && magnitude == 0.0 {
             continue;
         }
-        rows.push(ContributionRow {
-            name: parameter.name.clone(),
-            stage: budget.chain[parameter.stage].label.clone(),
-            value: parameter.describe(),
-            field: parameter.field.clone(),
-            kind: ContributionKind::Random,
-            cmrr_db: Db::from_conversion(magnitude),
-            error_rti_v: amplitude.map(|a| magnitude * a.volts),
-            share: share(magnitude),
-        });
+        rows.push(parameter_row(
+            budget,
+            contribution.param,
+            magnitude,
+            amplitude.map(|a| magnitude * a.volts),
+            share(magnitude),
+        ));
     }
     rows.sort_by(|a, b| ranking_key(b.share).total_cmp(&ranking_key(a.share)));
     rows
+}
+
+/// The systematic row: the conversion with values as given.
+fn systematic_row(conversion: f64, error_rti_v: Option<f64>, share: f64) -> ContributionRow {
+    ContributionRow {
+        name: "nominal imbalance".into(),
+        stage: "whole chain".into(),
+        value: "values as given".into(),
+        field: String::new(),
+        kind: ContributionKind::Systematic,
+        cmrr_db: Db::from_conversion(conversion),
+        error_rti_v,
+        share,
+    }
+}
+
+/// One varying parameter's row.
+fn parameter_row(
+    budget: &Budget,
+    id: crate::model::ParamId,
+    conversion: f64,
+    error_rti_v: Option<f64>,
+    share: f64,
+) -> ContributionRow {
+    let parameter = budget.parameters.get(id);
+    ContributionRow {
+        name: parameter.name.clone(),
+        stage: budget.chain[parameter.stage].label.clone(),
+        value: parameter.describe(),
+        field: parameter.field.clone(),
+        kind: ContributionKind::Random,
+        cmrr_db: Db::from_conversion(conversion),
+        error_rti_v,
+        share,
+    }
 }
 
 /// The four totals of one analysis, as conversions.
@@ -745,29 +772,17 @@ fn tare_rows(budget: &Budget, residual: &TareResidual, amplitude_v: f64) -> Vec<
     let share = |r: f64| if worst > 0.0 { r / worst } else { 0.0 };
     let mut rows = Vec::new();
     if residual.systematic > 0.0 {
-        rows.push(ContributionRow {
-            name: "nominal imbalance".into(),
-            stage: "whole chain".into(),
-            value: "values as given".into(),
-            field: String::new(),
-            kind: ContributionKind::Systematic,
-            cmrr_db: Db::from_conversion(residual.systematic / amplitude_v),
-            error_rti_v: Some(residual.systematic),
-            share: share(residual.systematic),
-        });
+        let r = residual.systematic;
+        rows.push(systematic_row(r / amplitude_v, Some(r), share(r)));
     }
     for &(id, r) in residual.rows.iter().filter(|row| row.1 > 0.0) {
-        let parameter = budget.parameters.get(id);
-        rows.push(ContributionRow {
-            name: parameter.name.clone(),
-            stage: budget.chain[parameter.stage].label.clone(),
-            value: parameter.describe(),
-            field: parameter.field.clone(),
-            kind: ContributionKind::Random,
-            cmrr_db: Db::from_conversion(r / amplitude_v),
-            error_rti_v: Some(r),
-            share: share(r),
-        });
+        rows.push(parameter_row(
+            budget,
+            id,
+            r / amplitude_v,
+            Some(r),
+            share(r),
+        ));
     }
     rows.sort_by(|a, b| ranking_key(b.share).total_cmp(&ranking_key(a.share)));
     rows

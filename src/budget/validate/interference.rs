@@ -609,6 +609,15 @@ impl Validator<'_> {
                     bridge_ohms,
                     sense,
                 };
+                let share = excitation.across_bridge(1.0);
+                if !(share >= 1e-3 && excitation.low_end(1.0).is_finite()) {
+                    self.problem(
+                        "measurand.bridge.lead_resistance",
+                        format!("leads of {} each would leave the bridge {} of its excitation", format_si(lead_ohms, "Ω"), crate::quantity::format_fraction(share)),
+                        "give each excitation lead's resistance in ohms (a few ohms for tens of metres of cable), below the bridge's own",
+                    );
+                    return None;
+                }
                 let full_scale = excitation.full_scale_volts();
                 return Some(Measurand {
                     unit,
