@@ -125,3 +125,42 @@ fn issue_12_ripple_and_reference_refusals() {
         "{error}"
     );
 }
+
+/// `cmrr yield` shows the error as read beside the analog error: the
+/// bridge's part added and the digital filter's worst gain applied, as its
+/// per-unit checks judge it (the same rule as the verdict's, restated).
+#[test]
+fn issue_12_yield_shows_the_error_as_read() {
+    use cmrr_budget::montecarlo::production::production_yield;
+    use cmrr_budget::montecarlo::{TemperatureMode, YieldOptions};
+    let root = std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR"));
+    let budget =
+        cmrr_budget::budget::load_budget(&root.join("budgets/weighing-sinc-filter.yaml")).unwrap();
+    let options = YieldOptions {
+        trials: 2000,
+        seed: 5,
+        temperature: TemperatureMode::Reference,
+    };
+    let stop = std::sync::atomic::AtomicBool::new(false);
+    let (production, _) = production_yield(&budget, options, &|_| {}, &stop).unwrap();
+    let verdict = judge(&budget).unwrap();
+    for (source, result) in production.sources.iter().zip(&verdict.results) {
+        let Some(read) = &source.error_as_read_v else {
+            assert!(result.after_filter.is_none() && result.through_bridge.is_none());
+            continue;
+        };
+        let gain = result
+            .after_filter
+            .as_ref()
+            .unwrap()
+            .rejection_db
+            .conversion();
+        let beside = result.through_bridge.as_ref().map_or(0.0, |r| r.left_rti_v);
+        let expected = (source.error_rti_v.p99 + beside) * gain;
+        assert!(
+            (read.p99 / expected - 1.0).abs() < 1e-12,
+            "{}",
+            source.source
+        );
+    }
+}

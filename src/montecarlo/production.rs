@@ -103,6 +103,11 @@ pub struct SourceYield {
     pub amplitude_form: Option<AmplitudeForm>,
     /// Error referred to the input, volts in `amplitude_form`.
     pub error_rti_v: ErrorPercentiles,
+    /// The error in the reading, where it differs from `error_rti_v`: a
+    /// ripple on the excitation adds what the bridge passes on (the
+    /// verdict's, at nominal values), and the converter's digital filter
+    /// multiplies by its worst gain over the source's band; null otherwise.
+    pub error_as_read_v: Option<ErrorPercentiles>,
     /// The share of trials within the source's error limit, if it has one.
     #[serde(rename = "yield")]
     pub yield_figure: Option<YieldFigure>,
@@ -312,6 +317,20 @@ pub fn production_yield_judged(
                         source.amplitude.volts * 10f64.powf(-db / 20.0)
                     }
                 };
+                let judged = &verdict.results[source_index];
+                let beside = judged.through_bridge.as_ref().map(|r| r.left_rti_v);
+                let filter_gain = judged
+                    .after_filter
+                    .as_ref()
+                    .map(|f| f.rejection_db.conversion());
+                let as_read = |e: f64| (e + beside.unwrap_or(0.0)) * filter_gain.unwrap_or(1.0);
+                let error_as_read_v =
+                    (beside.is_some() || filter_gain.is_some()).then(|| ErrorPercentiles {
+                        p50: as_read(error_at(0.5)),
+                        p95: as_read(error_at(0.95)),
+                        p99: as_read(error_at(0.99)),
+                        p99_9: as_read(error_at(0.999)),
+                    });
                 let passed = run.checks.iter().zip(&run.check_passes).find_map(
                     |(check, passed)| match check {
                         TrialCheck::MaximumError { source: s, .. } if *s == source_index => {
@@ -330,6 +349,7 @@ pub fn production_yield_judged(
                         p99: error_at(0.99),
                         p99_9: error_at(0.999),
                     },
+                    error_as_read_v,
                     yield_figure: passed.map(|p| yield_figure(p, run.trials_run)),
                 }
             })

@@ -111,6 +111,26 @@ pub fn render_yield_table(report: &YieldReport) -> String {
     out.push_str("\nerror referred to the input that the given share of units stays under\n");
     out.push_str(&super::layout::styled(table, 1..5));
     out.push('\n');
+    if report.sources.iter().any(|s| s.error_as_read_v.is_some()) {
+        let mut table = Builder::default();
+        table.push_record(["source", "median error", "95 %", "99 %", "99.9 %"]);
+        for s in &report.sources {
+            let Some(read) = &s.error_as_read_v else {
+                continue;
+            };
+            let v = |x: f64| describe_volts(x, s.amplitude_form);
+            table.push_record([
+                format!("{} ({})", s.source, frequency_text(s.frequency_hz)),
+                v(read.p50),
+                v(read.p95),
+                v(read.p99),
+                v(read.p99_9),
+            ]);
+        }
+        out.push_str("\nthe same in the reading (through the bridge, after the digital filter), as the limits judge it\n");
+        out.push_str(&super::layout::styled(table, 1..5));
+        out.push('\n');
+    }
     match (&report.overall_yield, report.status) {
         (Some(y), Status::DoesNotHold) => out.push_str(&format!(
             "\nyield against the whole requirement: {}: the figures do not hold (headroom findings at nominal values), so no unit counts as passing\n",
