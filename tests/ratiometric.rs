@@ -164,3 +164,16 @@ fn issue_12_yield_shows_the_error_as_read() {
         );
     }
 }
+
+/// A refused measurand is reported once: what depends on it (a ripple
+/// source, a reference from the excitation) is not refused a second time.
+#[test]
+fn issue_12_a_refused_measurand_is_reported_once() {
+    let text = "name: r\nmeasurand: {unit: kg, bridge: {sensitivity: 2 mV/V, excitation: 5 V, capacity: 100, resistance: 350, lead_resistance: 1e300}}\nchain:\n  - difference_amp: {r1: 10k, r2: 100k, r3: 10k, r4: 100k}\n  - adc: {span: 5 V, bits: 24, reference: {from: excitation}}\ninterference:\n  - {name: r, excitation_ripple: 10 mV rms, frequency: 100 Hz}\n";
+    let error = parse_budget(text, "r.yaml").unwrap_err().to_string();
+    assert!(
+        error.contains("measurand.bridge.lead_resistance"),
+        "{error}"
+    );
+    assert!(!error.contains("names no"), "{error}");
+}

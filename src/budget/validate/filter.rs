@@ -265,6 +265,7 @@ impl Validator<'_> {
             .measurand
             .as_ref()
             .is_some_and(|m| m.excitation.is_some())
+            || self.measurand_refused
         {
             return;
         }

@@ -168,6 +168,9 @@ impl Validator<'_> {
         path: &str,
     ) -> Option<(ExcitationRipple, f64)> {
         let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation) else {
+            if self.measurand_refused {
+                return None;
+            }
             self.problem(
                 path,
                 "a ripple on the excitation needs the bridge it excites, and the measurand names none",
@@ -273,6 +276,9 @@ impl Validator<'_> {
             return None;
         };
         let Some(excitation) = self.measurand.as_ref().and_then(|m| m.excitation) else {
+            if self.measurand_refused {
+                return None;
+            }
             self.problem(
                 path,
                 format!("`{text}` needs a bridge excitation, and the measurand names none"),

@@ -40,6 +40,7 @@ pub fn validate(raw: RawBudget, file: &str, map: &SourceMap) -> Validated {
         measurand: None,
         converter_filter: None,
         converter_reference: None,
+        measurand_refused: false,
         ends_in_converter: false,
     };
     if !v.bounded(&raw) {
@@ -86,6 +87,9 @@ struct Validator<'a> {
     /// The converter's reference when taken from the excitation, with the
     /// field that asked for it (checked against the measurand later).
     converter_reference: Option<(crate::model::RatiometricReference, String)>,
+    /// Whether the file states a measurand that was refused: what depends
+    /// on it is then not refused a second time.
+    measurand_refused: bool,
     /// Whether the chain ends in a converter (a limit may then be stated
     /// in its codes).
     ends_in_converter: bool,
@@ -344,6 +348,7 @@ impl Validator<'_> {
             .and_then(|t| self.temperature_range(t));
         let chain = self.chain(&raw.chain);
         self.measurand = raw.measurand.as_ref().and_then(|m| self.measurand(m));
+        self.measurand_refused = raw.measurand.is_some() && self.measurand.is_none();
         self.check_reference_source();
         let requirement = raw.requirement.as_ref().and_then(|r| self.requirement(r));
         let full_scale = requirement
