@@ -212,6 +212,52 @@ pub struct RawSource {
     pub input_resistance: Option<PerLeg>,
     #[serde(default)]
     pub input_capacitance: Option<PerLeg>,
+    #[serde(default)]
+    pub body: Option<RawBody>,
+}
+
+/// A patient's body behind the electrodes: its coupling to the mains and
+/// to earth, and its return to the amplifier.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawBody {
+    pub mains_coupling: Scalar,
+    pub to_earth: Scalar,
+    pub common_to_earth: Scalar,
+    #[serde(default)]
+    pub mains_to_common: Option<Scalar>,
+    #[serde(default)]
+    pub reference_electrode: Option<RawElectrode>,
+    #[serde(default)]
+    pub drive: Option<RawDrive>,
+    #[serde(default)]
+    pub electrode_offset: Option<Scalar>,
+}
+
+/// An electrode's impedance, `R ∥ C`.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawElectrode {
+    pub resistance: Scalar,
+    #[serde(default)]
+    pub capacitance: Option<Scalar>,
+}
+
+/// A right-leg drive.
+#[derive(Debug, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RawDrive {
+    #[serde(default)]
+    pub gain: Option<Scalar>,
+    #[serde(default)]
+    pub corner: Option<Scalar>,
+    #[serde(default)]
+    pub unity_gain: Option<Scalar>,
+    pub output_resistance: Scalar,
+    #[serde(default)]
+    pub output_range: Option<Vec<Scalar>>,
+    #[serde(default)]
+    pub sense_resistance: Option<Scalar>,
 }
 
 /// The cable between the sensor and the board.

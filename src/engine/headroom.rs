@@ -8,7 +8,8 @@
 //! inputs (a pair's collectors, carried on at DC), plus the DC common modes
 //! (as written, positive), plus the
 //! peaks of every alternating source at its own frequency, plus the
-//! full-scale differential input either way. Adding the peaks is the worst
+//! full-scale differential input (and a body's electrode offset) either
+//! way. Adding the peaks is the worst
 //! case: sources at different frequencies line up at some instant.
 
 use super::chain::{stage_loads, EngineError};
@@ -110,6 +111,20 @@ fn input_levels(budget: &Budget, values: &[f64]) -> Result<Vec<[f64; 2]>, Engine
     Ok(levels)
 }
 
+/// The largest DC difference between a body's electrodes, volts (0 without
+/// a body).
+fn electrode_offset(budget: &Budget) -> f64 {
+    budget
+        .chain
+        .iter()
+        .filter_map(|stage| match &stage.kind {
+            crate::stage::StageKind::SourceNetwork(network) => network.body,
+            _ => None,
+        })
+        .map(|body| body.electrode_offset)
+        .sum()
+}
+
 /// Check every probed node of the chain at nominal values.
 pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineError> {
     let mut values = budget.parameters.nominal_values();
@@ -129,7 +144,9 @@ pub fn check_headroom(budget: &Budget) -> Result<Vec<HeadroomFinding>, EngineErr
         .filter(|s| s.frequency_hz == 0.0)
         .map(|s| s.amplitude.volts)
         .sum();
-    let full_scale = budget.full_scale_volts().unwrap_or(0.0);
+    // The full-scale input and the electrodes' DC offset are differential,
+    // either sign.
+    let full_scale = budget.full_scale_volts().unwrap_or(0.0) + electrode_offset(budget);
     let mut findings = Vec::new();
     for (stage_index, stage_probes) in at_dc.iter().enumerate() {
         for (probe_index, probe) in stage_probes.iter().enumerate() {

@@ -2,6 +2,7 @@
 //! node-voltage response into a mixed-mode one, and split the CM-to-DM
 //! conversion into contributions.
 
+mod body;
 mod chain;
 mod contributions;
 mod corners;
@@ -13,6 +14,7 @@ mod mixed_mode;
 mod settle;
 mod tare;
 
+pub use body::{body_levels, loop_crossing, BodyLevels, LoopCrossing};
 pub use chain::{chain_response, stage_loads, EngineError, MAX_STAGES};
 pub use contributions::{
     analyse_point, analyse_point_at, nominal_differential_gain, ranking_key, resolved,

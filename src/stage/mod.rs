@@ -22,6 +22,7 @@
 //! file's raw schema and validator to build it (see DEVELOPERS.md).
 
 mod adc;
+mod body;
 mod difference_amp;
 mod differential_pair;
 mod integrated_inamp;
@@ -33,6 +34,10 @@ pub mod two_port;
 
 pub use crate::engine::lane::Lane;
 pub use adc::{Adc, AdcValues};
+pub use body::{
+    coupling as body_coupling, Body, BodyValues, Compensation, DriveGain, ReferenceElectrode,
+    RightLegDrive,
+};
 pub use difference_amp::{DifferenceAmp, DifferenceValues};
 pub use differential_pair::{
     DifferentialPair, PairDevice, PairHeadroom, PairOutput, PairSmallSignal, PairValues, Tail,
@@ -41,7 +46,7 @@ pub use differential_pair::{
 pub use integrated_inamp::{GainSetting, IntegratedInAmp, IntegratedValues};
 pub use opamp::{OpAmp, OpAmpValues};
 pub use pins::{PinShunt, PinValues};
-pub use source_network::{Leg, SourceImpedance, SourceNetwork, SourceValues};
+pub use source_network::{BodyResponse, Leg, SourceImpedance, SourceNetwork, SourceValues};
 pub use three_opamp_inamp::{ThreeOpAmpInAmp, ThreeOpAmpValues};
 pub use two_port::{Admittance, Frequency, Rows, SmallSignal, Solved, Transfer};
 

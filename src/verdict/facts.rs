@@ -64,7 +64,19 @@ pub(crate) fn remarks(budget: &Budget) -> Vec<String> {
     if !budget.switching.is_empty() {
         remarks.push(OUTSIDE_THE_SWITCHING_MODEL.to_string());
     }
+    if has_body(budget) {
+        remarks.push(BODY_COMMON_MODE.to_string());
+    }
     remarks
+}
+
+/// What a budget with a body calls its common mode, said wherever its
+/// figures are reported.
+pub const BODY_COMMON_MODE: &str = "with a body, an interference source's amplitude is the mains voltage against earth and the CMRR figures are the rejection from it to the error referred to the input, the body's coupling included; the legs' resistance and capacitance are the electrodes";
+
+/// Whether the chain starts with a body.
+fn has_body(budget: &Budget) -> bool {
+    matches!(budget.chain.first().map(|s| &s.kind), Some(StageKind::SourceNetwork(n)) if n.body.is_some())
 }
 
 /// Resistors and capacitors: parts whose tolerance a user normally states.
@@ -147,6 +159,51 @@ pub(crate) fn facts(budget: &Budget) -> Vec<String> {
     }
     if let Some(fact) = bias_current_offset(budget) {
         facts.push(fact);
+    }
+    facts.extend(body_facts(budget, &values));
+    facts
+}
+
+/// The body's common mode at each source, with and without the right-leg
+/// drive, the drive's output, and the drive loop's phase margin.
+fn body_facts(budget: &Budget, values: &[f64]) -> Vec<String> {
+    let mut facts = Vec::new();
+    for source in budget.interference.iter().filter(|s| s.frequency_hz > 0.0) {
+        let Ok(Some(levels)) = crate::engine::body_levels(budget, values, source.frequency_hz)
+        else {
+            continue;
+        };
+        let amplitude = source.amplitude;
+        let volts = |per_volt: f64| {
+            crate::model::describe_volts(per_volt * amplitude.volts, amplitude.form)
+        };
+        let mut text = format!(
+            "{}: the body sits at {} against the common",
+            source.name,
+            volts(levels.body)
+        );
+        if let (Some(undriven), Some(output)) = (levels.undriven, levels.drive_output) {
+            text.push_str(&format!(
+                " with the right-leg drive, {} with the reference electrode to the common instead ({} less); the drive's output swings {}",
+                volts(undriven),
+                format_db(20.0 * (undriven / levels.body).log10()),
+                volts(output)
+            ));
+        }
+        facts.push(text);
+    }
+    if let Ok(Some(crossing)) = crate::engine::loop_crossing(budget, values) {
+        let mut text = format!(
+            "right-leg drive loop: unity loop gain at {}, phase margin {:.1}°",
+            format_si(crossing.frequency_hz, "Hz"),
+            crossing.phase_margin_deg
+        );
+        if crossing.phase_margin_deg < 45.0 {
+            text.push_str(
+                " (under 45°: expect peaking and ringing in the common mode, or oscillation; common practice, no source)",
+            );
+        }
+        facts.push(text);
     }
     facts
 }

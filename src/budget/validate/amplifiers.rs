@@ -259,7 +259,7 @@ impl Validator<'_> {
     /// A `[low, high]` voltage range.
     /// A plain DC voltage of either sign (no amplitude form, no
     /// tolerance); a problem naming `fix` otherwise.
-    fn plain_voltage(&mut self, raw: &Scalar, path: &str, fix: &str) -> Option<f64> {
+    pub(super) fn plain_voltage(&mut self, raw: &Scalar, path: &str, fix: &str) -> Option<f64> {
         match crate::quantity::parse_quantity(&raw.0, Dimension::Voltage) {
             Ok(q) if q.form.is_none() && q.tolerance.is_none() => self
                 .plausible(raw, path, Dimension::Voltage, q.value)

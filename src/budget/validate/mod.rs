@@ -3,6 +3,7 @@
 //! and collect every problem with its position.
 
 mod amplifiers;
+mod body;
 mod filter;
 mod interference;
 mod pair;

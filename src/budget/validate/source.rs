@@ -155,6 +155,18 @@ impl Validator<'_> {
                 stage,
             )
         });
+        let body = raw.body.as_ref().and_then(|body| {
+            let body_path = format!("{path}.body");
+            if raw.bridge_arm.is_some() {
+                self.problem(
+                    &body_path,
+                    "a body stands behind electrodes, not behind a bridge",
+                    "describe the electrodes with `resistance` (and `capacitance`) per leg, or remove `body`",
+                );
+                return None;
+            }
+            self.body(body, &body_path, stage, raw.input_resistance.is_some())
+        });
         let impedance = impedance?;
         if self.problems.len() > problems_before {
             return None;
@@ -171,6 +183,7 @@ impl Validator<'_> {
             legs: [leg(0), leg(1)],
             differential_capacitance,
             guard_drive,
+            body,
         }))
     }
 
